@@ -157,13 +157,16 @@ int as_io_utf8_find_bad(const char *s, size_t n, size_t *pos, int *is_nul)
 
 /* Known header names per role, already normalised (lowercase letters and digits only), best
  * first. Common practice in reaction data sets and chemistry spreadsheets (USPTO extracts use
- * ReactionSmiles and PatentNumber). ORDER ROLE: one row per as_io_role. */
+ * ReactionSmiles and PatentNumber). A bare "reaction" or "rxn" is left out on purpose: such
+ * columns as often hold a reaction name ("hx") as a reaction SMILES. ORDER ROLE: one row per
+ * as_io_role. */
 static const char *const role_names[AS_IO_ROLE_COUNT][9] = {
-    {"reactionsmiles", "rxnsmiles", "rxn", "reaction", "rsmiles", "mappedreactionsmiles", NULL},
+    {"reactionsmiles", "rxnsmiles", "rsmiles", "mappedreactionsmiles", NULL},
     {"smiles", "canonicalsmiles", "isosmiles", NULL},
-    {"substrate", "substratesmiles", "reactant", "reactants", "reactantsmiles", "startingmaterial",
-     NULL},
-    {"product", "products", "productsmiles", "proposedproduct", "expectedproduct", NULL},
+    {"substrate", "substratesmiles", "alkene", "alkenesmiles", "reactant", "reactants",
+     "reactantsmiles", "startingmaterial", NULL},
+    {"product", "products", "productsmiles", "proposedproduct", "expectedproduct", "majorproduct",
+     "major", NULL},
     {"reagents", "reagent", "conditions", "reagenttext", "reagentset", NULL},
     {"id", "recordid", "reactionid", "rxnid", "name", "title", "compoundid", "patentnumber", NULL},
 };

@@ -140,7 +140,10 @@ static int sanitise(as_writer *w, const char *s, size_t n)
             i += k;
         }
     }
-    return as_io_buf_reserve(&w->tmp, 0);
+    if (as_io_buf_reserve(&w->tmp, 0) != 0)
+        return -1;
+    w->tmp.p[w->tmp.len] = '\0';
+    return 0;
 }
 
 /* ==== TSV and CSV cells ===================================================================== */

@@ -10,11 +10,14 @@
  * TAB-separated (then comma-separated) cells include a known column name → TSV (then CSV);
  * anything else → reaction SMILES lines. Known column names are compared ignoring case and
  * every character that is not a letter or digit ("Reaction SMILES" = "reaction_smiles"):
- *   reaction  reactionsmiles rxnsmiles rxn reaction rsmiles mappedreactionsmiles
+ *   reaction  reactionsmiles rxnsmiles rsmiles mappedreactionsmiles
+ *             (a bare "reaction" or "rxn" is not taken: it often holds a reaction name)
  *   SMILES    smiles canonicalsmiles isosmiles    (a value holding '>' is a reaction,
  *                                                  otherwise a substrate)
- *   substrate substrate substratesmiles reactant reactants reactantsmiles startingmaterial
- *   product   product products productsmiles proposedproduct expectedproduct
+ *   substrate substrate substratesmiles alkene alkenesmiles reactant reactants
+ *             reactantsmiles startingmaterial
+ *   product   product products productsmiles proposedproduct expectedproduct majorproduct
+ *             major
  *   reagents  reagents reagent conditions reagenttext reagentset
  *   id        id recordid reactionid rxnid name title compoundid patentnumber
  * Earlier names in a row win over later ones; among equal names the leftmost column wins.
