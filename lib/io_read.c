@@ -621,7 +621,9 @@ static int csv_read(as_reader *r, as_record *rec, char delim)
             break;
         }
         any = 1;
-        if (r->raw.len >= r->max) {
+        /* The line break that ends the record (and a CR before it) does not count. */
+        int ends = c == '\n' && state != CS_Q;
+        if (!ends && r->raw.len >= r->max + (c == '\r')) {
             if (first_nl != SIZE_MAX) {
                 if (csv_cut_first_line(r, first_nl, line0, c) != 0) {
                     r->nomem = 1;
@@ -646,6 +648,8 @@ static int csv_read(as_reader *r, as_record *rec, char delim)
                 seen += skip_rest_of_line(r);
             if (r->nomem)
                 return CSV_NONE;
+            if (r->raw.len > r->max)
+                r->raw.p[r->raw.len = r->max] = '\0';
             rec->raw = r->raw.p;
             rec->raw_len = r->raw.len;
             rec_error(rec, AS_ERR_LIMIT, r->raw.len,
@@ -822,12 +826,29 @@ static int tsv_split(as_reader *r, const char *s, size_t n)
 
 /* ==== CSV/TSV records and header ============================================================ */
 
-/* Names each header column to the roles, from the options or by the known names. */
+static char ascii_lower(char c)
+{
+    return (c >= 'A' && c <= 'Z') ? (char)(c - 'A' + 'a') : c;
+}
+
+/* Finds the header column a *_col option names: exact name, then the name in any letter case,
+ * then a 1-based index. */
 static as_status resolve_col(as_reader *r, const char *spec, const char *what, int *col,
                              as_error *err)
 {
     for (size_t i = 0; i < r->nhdr; i++) {
         if (strcmp(r->hdr_names[i], spec) == 0) {
+            *col = (int)i;
+            return AS_OK;
+        }
+    }
+    for (size_t i = 0; i < r->nhdr; i++) {
+        const char *a = r->hdr_names[i], *b = spec;
+        while (*a && ascii_lower(*a) == ascii_lower(*b)) {
+            a++;
+            b++;
+        }
+        if (!*a && !*b) {
             *col = (int)i;
             return AS_OK;
         }
@@ -949,44 +970,49 @@ static as_status header_keep(as_reader *r)
     return AS_OK;
 }
 
+static as_status header_error(const as_record *rec, as_error *err)
+{
+    if (err) {
+        *err = rec->err;
+        size_t k = strlen(err->msg);
+        snprintf(err->msg + k, sizeof err->msg - k, " (in the header)");
+    }
+    return rec->err.code;
+}
+
+/* Reads the header row, passing over blank lines before it. */
 static as_status read_header(as_reader *r, as_error *err)
 {
     as_record rec;
-    memset(&rec, 0, sizeof rec);
-    as_error_clear(&rec.err);
-    if (r->fmt == AS_FMT_CSV) {
-        int st = csv_read(r, &rec, r->o.csv_delimiter);
-        if (r->nomem)
-            return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory reading the header");
-        if (st == CSV_NONE)
-            return AS_OK;
-        if (st == CSV_BAD && r->src_err) {
-            return as_error_set(err, AS_ERR_IO, -1, -1, "the header could not be read (%s)",
-                                r->src_msg);
-        }
-        if (st == CSV_BAD || check_encoding(&rec)) {
-            if (err) {
-                *err = rec.err;
-                size_t k = strlen(err->msg);
-                snprintf(err->msg + k, sizeof err->msg - k, " (in the header)");
-            }
-            return rec.err.code;
-        }
-    } else {
-        if (!take_line(r, &rec)) {
+    for (;;) {
+        memset(&rec, 0, sizeof rec);
+        as_error_clear(&rec.err);
+        if (r->fmt == AS_FMT_CSV) {
+            int st = csv_read(r, &rec, r->o.csv_delimiter);
             if (r->nomem)
                 return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory reading the header");
-            if (rec.at_end)
+            if (st == CSV_NONE)
                 return AS_OK;
-            if (err) {
-                *err = rec.err;
-                size_t k = strlen(err->msg);
-                snprintf(err->msg + k, sizeof err->msg - k, " (in the header)");
+            if (st == CSV_BAD && r->src_err)
+                return as_error_set(err, AS_ERR_IO, -1, -1, "the header could not be read (%s)",
+                                    r->src_msg);
+            if (st == CSV_BAD || check_encoding(&rec))
+                return header_error(&rec, err);
+        } else {
+            if (!take_line(r, &rec)) {
+                if (r->nomem)
+                    return as_error_set(err, AS_ERR_NOMEM, -1, -1,
+                                        "out of memory reading the header");
+                if (rec.at_end)
+                    return AS_OK;
+                return header_error(&rec, err);
             }
-            return rec.err.code;
+            if (tsv_split(r, rec.raw, rec.raw_len) != 0)
+                return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory reading the header");
         }
-        if (tsv_split(r, rec.raw, rec.raw_len) != 0)
-            return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory reading the header");
+        if (!(rec.nlines == 1 && all_blank(rec.raw, rec.raw_len) &&
+              memchr(rec.raw, '"', rec.raw_len) == NULL))
+            break;
     }
     /* A header ending in an empty cell (a trailing delimiter) keeps it out of the names. */
     if (r->ncells > 1 && cell(r, r->ncells - 1)[0] == '\0')

@@ -682,6 +682,72 @@ static void io_should_skip_over_long_lines_in_bounded_memory(void **state)
     assert_string_equal(S[3].id, "r4");
 }
 
+static void io_should_accept_records_of_exactly_the_limit(void **state)
+{
+    (void)state;
+    as_reader_opts o;
+    as_reader_opts_init(&o);
+    o.max_record = 64;
+    char text[512];
+    char row[80];
+    /* 64 bytes of content, with LF and with CRLF, then 65 bytes. */
+    memset(row, 'C', 64);
+    row[64] = '\0';
+    snprintf(text, sizeof text, "%s\n%s\r\nC%s\n", row, row, row);
+    int n = read_text(text, &o, S, 8);
+    assert_int_equal(n, 3);
+    assert_int_equal(S[0].code, AS_OK);
+    assert_int_equal(S[1].code, AS_OK);
+    assert_int_equal(S[1].raw_len, 64);
+    assert_int_equal(S[2].code, AS_ERR_LIMIT);
+    memcpy(row, "C=C,", 4);
+    snprintf(text, sizeof text, "smiles,id\n%s\n%s\r\n%s9\n", row, row, row);
+    n = read_text(text, &o, S, 8);
+    assert_int_equal(n, 3);
+    assert_int_equal(S[0].code, AS_OK);
+    assert_int_equal(S[1].code, AS_OK);
+    assert_int_equal(S[1].raw_len, 64);
+    assert_int_equal(S[2].code, AS_ERR_LIMIT);
+    assert_int_equal(S[2].raw_len, 64);
+    assert_int_equal(S[2].line, 4);
+}
+
+static void io_should_pass_over_blank_lines_before_a_header(void **state)
+{
+    (void)state;
+    as_reader_opts o;
+    as_reader_opts_init(&o);
+    o.format = AS_FMT_CSV;
+    o.id_col = "LOT";
+    int n = read_text("\r\n\nSMILES,lot\nC=C,L-7\n", &o, S, 4);
+    assert_int_equal(n, 1);
+    assert_int_equal(S[0].line, 4);
+    assert_string_equal(S[0].substrate, "C=C");
+    assert_string_equal(S[0].id, "L-7");
+}
+
+static void io_should_read_standard_input(void **state)
+{
+    (void)state;
+    char dir[PATH_MAX], p[PATH_MAX + 32];
+    make_dir(dir, sizeof dir);
+    snprintf(p, sizeof p, "%s/in.jsonl.gz", dir);
+    const char *text = "{\"smiles\": \"C=CC\", \"id\": \"S1\"}\n";
+    gzip_file(p, text, strlen(text));
+    int saved = dup(STDIN_FILENO);
+    int fd = open(p, O_RDONLY);
+    assert_true(saved >= 0 && fd >= 0);
+    assert_int_equal(dup2(fd, STDIN_FILENO), STDIN_FILENO);
+    close(fd);
+    int n = read_path("-", NULL, S, 4);
+    assert_int_equal(dup2(saved, STDIN_FILENO), STDIN_FILENO);
+    close(saved);
+    assert_int_equal(n, 1);
+    assert_string_equal(S[0].substrate, "C=CC");
+    assert_string_equal(S[0].id, "S1");
+    rm_dir(dir);
+}
+
 /* ==== Files, gzip, detection ================================================================ */
 
 static void io_should_read_gzip_input_transparently(void **state)
@@ -1281,6 +1347,9 @@ int main(void)
         cmocka_unit_test(io_should_read_json_lines_and_locate_bad_lines),
         cmocka_unit_test(io_should_report_nul_and_invalid_utf8_with_column),
         cmocka_unit_test(io_should_skip_over_long_lines_in_bounded_memory),
+        cmocka_unit_test(io_should_accept_records_of_exactly_the_limit),
+        cmocka_unit_test(io_should_pass_over_blank_lines_before_a_header),
+        cmocka_unit_test(io_should_read_standard_input),
         cmocka_unit_test(io_should_read_gzip_input_transparently),
         cmocka_unit_test(io_should_end_truncated_gzip_with_an_error_record),
         cmocka_unit_test(io_should_detect_the_format_from_name_and_first_line),
