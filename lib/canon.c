@@ -176,41 +176,18 @@ static void refine(canon_ctx *c, int *rank)
     }
 }
 
-/* Initial invariants → ranks. */
-static void initial_ranks(canon_ctx *c, int *rank)
+/* rank[i] = number of atoms whose 128-bit key (inv[2i], inv[2i+1]) is smaller. */
+static void rank_by_keys(canon_ctx *c, const uint64_t *inv, int *rank)
 {
-    const as_mol *m = c->m;
     int n = c->n;
-    /* pack the invariant into two 64-bit words */
-    uint64_t *inv = malloc((size_t)n * 2 * sizeof(uint64_t));
-    if (!inv) {
-        c->st = AS_ERR_NOMEM;
-        return;
-    }
-    for (int i = 0; i < n; i++) {
-        const as_atom *a = &m->atoms[i];
-        uint64_t hi = 0, lo = 0;
-        hi |= (uint64_t)(a->degree & 0xff) << 56;
-        hi |= (uint64_t)(a->elem & 0xff) << 48;
-        hi |= (uint64_t)((a->isotope + 1) & 0xffff) << 32;
-        hi |= (uint64_t)((a->charge + 64) & 0xff) << 24;
-        hi |= (uint64_t)(a->total_h & 0xff) << 16;
-        hi |= (uint64_t)(a->aromatic & 1) << 8;
-        hi |= (uint64_t)(a->ring_size ? 1 : 0);
-        lo = c->o->atom_maps ? (uint64_t)(unsigned)a->mapnum : 0;
-        inv[2 * i] = hi;
-        inv[2 * i + 1] = lo;
-    }
-    /* rank = number of atoms with a smaller invariant; simple sort of indices */
-    for (int i = 0; i < n; i++)
-        c->order[i] = i;
-    /* insertion sort by invariant is too slow for big molecules: merge sort */
     int *a = c->order, *t = c->tmp;
+    for (int i = 0; i < n; i++)
+        a[i] = i;
     for (int w = 1; w < n; w *= 2) {
-        for (int lo2 = 0; lo2 < n; lo2 += 2 * w) {
-            int mid = lo2 + w < n ? lo2 + w : n, hi2 = lo2 + 2 * w < n ? lo2 + 2 * w : n;
-            int i = lo2, j = mid, k = lo2;
-            while (i < mid && j < hi2) {
+        for (int lo = 0; lo < n; lo += 2 * w) {
+            int mid = lo + w < n ? lo + w : n, hi = lo + 2 * w < n ? lo + 2 * w : n;
+            int i = lo, j = mid, k = lo;
+            while (i < mid && j < hi) {
                 int x = a[i], y = a[j];
                 int ylt = inv[2 * y] < inv[2 * x] ||
                           (inv[2 * y] == inv[2 * x] && inv[2 * y + 1] < inv[2 * x + 1]);
@@ -218,7 +195,7 @@ static void initial_ranks(canon_ctx *c, int *rank)
             }
             while (i < mid)
                 t[k++] = a[i++];
-            while (j < hi2)
+            while (j < hi)
                 t[k++] = a[j++];
         }
         memcpy(a, t, (size_t)n * sizeof(int));
@@ -230,6 +207,33 @@ static void initial_ranks(canon_ctx *c, int *rank)
         else
             rank[x] = i;
     }
+}
+
+/* Initial invariants → ranks: degree, element, isotope, charge, H count, aromaticity, ring
+ * membership, then the atom class when maps are written. */
+static void initial_ranks(canon_ctx *c, int *rank)
+{
+    const as_mol *m = c->m;
+    int n = c->n;
+    uint64_t *inv = malloc((size_t)(n ? n : 1) * 2 * sizeof(uint64_t));
+    if (!inv) {
+        c->st = AS_ERR_NOMEM;
+        return;
+    }
+    for (int i = 0; i < n; i++) {
+        const as_atom *a = &m->atoms[i];
+        uint64_t hi = 0;
+        hi |= (uint64_t)(a->degree & 0xff) << 56;
+        hi |= (uint64_t)(a->elem & 0xff) << 48;
+        hi |= (uint64_t)((a->isotope + 1) & 0xffff) << 32;
+        hi |= (uint64_t)((a->charge + 64) & 0xff) << 24;
+        hi |= (uint64_t)(a->total_h & 0xff) << 16;
+        hi |= (uint64_t)(a->aromatic & 1) << 8;
+        hi |= (uint64_t)(a->ring_size ? 1 : 0);
+        inv[2 * i] = hi;
+        inv[2 * i + 1] = c->o->atom_maps ? (uint64_t)(unsigned)a->mapnum : 0;
+    }
+    rank_by_keys(c, inv, rank);
     free(inv);
 }
 
@@ -344,6 +348,102 @@ static void find_real_stereo(canon_ctx *c)
                 c->near_stereo[m->atoms[a].nbr[k]] = 1;
         }
     }
+}
+
+/* Parity descriptor (1 or 2) of a real centre whose four neighbours all differ in class:
+ * the record's parity carried over to the order sorted by class (H lowest); 0 otherwise. */
+static int centre_descriptor(const canon_ctx *c, const as_tetra *t)
+{
+    int key[4], ord[4];
+    for (int k = 0; k < 4; k++) {
+        key[k] = t->nbr[k] == AS_IMPLICIT_H ? -1 : c->cls[t->nbr[k]];
+        ord[k] = k;
+    }
+    for (int x = 0; x < 4; x++)
+        for (int y = x + 1; y < 4; y++)
+            if (key[x] == key[y])
+                return 0;
+    /* parity of the permutation that sorts the keys */
+    int odd = 0;
+    for (int x = 0; x < 4; x++)
+        for (int y = x + 1; y < 4; y++)
+            if (key[ord[x]] > key[ord[y]])
+                odd ^= 1;
+    int par = t->parity == AS_CCW ? 1 : 2;
+    return odd ? 3 - par : par;
+}
+
+/* Splits classes by configuration: two constitutionally equal centres of opposite
+ * configuration (the two ends of ribitol) become different, which in turn makes a
+ * pseudo-asymmetric centre between them real. Repeats while that changes anything. */
+static void stereo_refine(canon_ctx *c)
+{
+    const as_mol *m = c->m;
+    int n = c->n;
+    int *desc = calloc((size_t)(n ? n : 1), sizeof(int));
+    int *rank = malloc((size_t)(n ? n : 1) * sizeof(int));
+    if (!desc || !rank) {
+        free(desc);
+        free(rank);
+        c->st = AS_ERR_NOMEM;
+        return;
+    }
+    for (int iter = 0; iter < 4; iter++) {
+        int any = 0;
+        memset(desc, 0, (size_t)n * sizeof(int));
+        for (int i = 0; i < m->ntetra; i++) {
+            if (!c->real_tetra[i])
+                continue;
+            desc[m->tetra[i].center] = centre_descriptor(c, &m->tetra[i]);
+            any |= desc[m->tetra[i].center] != 0;
+        }
+        if (!any)
+            break;
+        /* rank by (class, descriptor), then refine */
+        uint64_t *keys = malloc((size_t)n * 2 * sizeof(uint64_t));
+        if (!keys) {
+            c->st = AS_ERR_NOMEM;
+            break;
+        }
+        for (int i = 0; i < n; i++) {
+            keys[2 * i] = (uint64_t)(unsigned)c->cls[i];
+            keys[2 * i + 1] = (uint64_t)(unsigned)desc[i];
+        }
+        rank_by_keys(c, keys, rank);
+        free(keys);
+        int before = 0, after = 0;
+        refine(c, rank);
+        /* count classes to see whether anything split */
+        char *seen = calloc((size_t)(n ? n : 1), 1);
+        if (!seen) {
+            c->st = AS_ERR_NOMEM;
+            break;
+        }
+        for (int i = 0; i < n; i++)
+            if (!seen[c->cls[i]]) {
+                seen[c->cls[i]] = 1;
+                before++;
+            }
+        memset(seen, 0, (size_t)n);
+        for (int i = 0; i < n; i++)
+            if (!seen[rank[i]]) {
+                seen[rank[i]] = 1;
+                after++;
+            }
+        free(seen);
+        if (after == before)
+            break;
+        memcpy(c->cls, rank, (size_t)n * sizeof(int));
+        memset(c->real_tetra, 0, (size_t)(m->ntetra ? m->ntetra : 1));
+        memset(c->real_db, 0, (size_t)(m->ndbs ? m->ndbs : 1));
+        memset(c->near_stereo, 0, (size_t)n);
+        c->has_stereo = 0;
+        find_real_stereo(c);
+        if (c->st != AS_OK)
+            break;
+    }
+    free(desc);
+    free(rank);
 }
 
 /* ---------------------------------------------------------------- writer */
@@ -1177,6 +1277,10 @@ as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out
     as_status st = ctx_init(&c, m, opts);
     if (st == AS_OK) {
         find_real_stereo(&c);
+        st = c.st;
+    }
+    if (st == AS_OK && c.has_stereo) {
+        stereo_refine(&c);
         st = c.st;
     }
     int *rank = NULL;

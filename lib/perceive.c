@@ -90,6 +90,17 @@ static as_status pass_hydrogens(as_mol *m, as_error *err)
 static as_status check_valence_atom(const as_mol *m, int i, as_error *err)
 {
     const as_atom *a = &m->atoms[i];
+    if ((a->elem == 17 || a->elem == 35 || a->elem == 53) && a->charge == 0 && !a->bracket) {
+        /* neutral Cl, Br, I: valence 1, 3, 5 or 7 (perchlorate, periodinanes) */
+        int v = a->total_h;
+        for (int k = 0; k < a->degree; k++)
+            v += m->bonds[a->nbond[k]].order == AS_BOND_AROMATIC ? 1 : m->bonds[a->nbond[k]].order;
+        if (v > 7 || v % 2 == 0)
+            return as_error_set(err, AS_ERR_VALENCE, a->src_offset, i,
+                                "atom %d (%s) has %d bonds to it; a neutral halogen takes 1, 3, 5 or 7",
+                                i + 1, as_element_symbol(a->elem), v);
+        return AS_OK;
+    }
     int maxv = max_valence(a->elem, a->charge);
     if (maxv < 0)
         return AS_OK;
@@ -522,6 +533,17 @@ static as_status pass_kekule(as_mol *m, as_error *err)
                 bad = i;
                 break;
             }
+        /* point at the usual culprit: a pyrrole-type n without its H in a five-membered
+         * ring, or an [nH] in a six-membered ring */
+        for (int i = 0; i < m->natoms; i++) {
+            const as_atom *x = &m->atoms[i];
+            if (!x->aromatic || x->elem != 7 || x->charge != 0 || x->degree != 2)
+                continue;
+            if ((x->total_h == 0 && x->ring_size == 5) || (x->total_h == 1 && x->ring_size == 6)) {
+                bad = i;
+                break;
+            }
+        }
         if (bad < 0)
             bad = 0;
         const as_atom *a = &m->atoms[bad];

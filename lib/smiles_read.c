@@ -152,6 +152,18 @@ static as_status read_organic(parser *p, atom_spec *a)
     case 'p': a->elem = 15; a->aromatic = 1; break;
     case 's': a->elem = 16; a->aromatic = 1; break;
     default: {
+        if (islower((unsigned char)c)) {
+            /* "Na", "Fe": an element written without brackets */
+            if (p->pos > 0 && isupper((unsigned char)p->s[p->pos - 1])) {
+                char el[3] = {p->s[p->pos - 1], c, 0};
+                if (as_element_number(el, 2) > 0)
+                    return fail(p, AS_ERR_ELEMENT, (long)p->pos - 1,
+                                "'%s' is not in the organic subset; write it in brackets",
+                                el);
+            }
+            char one[2] = {c, 0};
+            return fail(p, AS_ERR_ELEMENT, (long)p->pos, "'%s' is not an atom symbol", one);
+        }
         char tok[3] = {c, 0, 0};
         if (isupper((unsigned char)c) && left > 1 && islower((unsigned char)s[1]))
             tok[1] = s[1];
@@ -483,6 +495,11 @@ static as_status parse_body(parser *p)
         long off = (long)p->pos;
         if (c == '\0')
             return fail(p, AS_ERR_ENCODING, off, "NUL byte in the SMILES%s", "");
+        if ((unsigned char)c < 0x20 || c == 0x7f) {
+            char tok[8];
+            snprintf(tok, sizeof tok, "0x%02x", (unsigned char)c);
+            return fail(p, AS_ERR_ENCODING, off, "control byte %s in the SMILES", tok);
+        }
         if ((unsigned char)c >= 0x80)
             return fail(p, AS_ERR_ENCODING, off,
                         "non-ASCII byte in the SMILES (only ASCII is valid)%s", "");
@@ -575,8 +592,14 @@ static as_status parse_body(parser *p)
                                 "ring bond duplicates a bond that already joins these atoms%s",
                                 "");
                 int order = r->order > 0 ? r->order : 0, o2 = pending_order > 0 ? pending_order : 0;
-                if (order && o2 && order != o2)
-                    return fail(p, AS_ERR_RING, off,
+                /* a / \\ mark stands for a single (or aromatic) bond */
+                int o1x = r->order < 0 ? AS_BOND_SINGLE : order, o2x = pending_order < 0 ? AS_BOND_SINGLE : o2;
+                if ((r->order < 0 && o2 > AS_BOND_SINGLE && o2 != AS_BOND_AROMATIC) ||
+                    (pending_order < 0 && order > AS_BOND_SINGLE && order != AS_BOND_AROMATIC))
+                    o1x = -1;
+                (void)o2x;
+                if ((order && o2 && order != o2) || o1x < 0)
+                    return fail(p, AS_ERR_RING, pending_off >= 0 ? pending_off : off,
                                 "the two ends of this ring bond give different bond orders%s",
                                 "");
                 if (!order)
@@ -615,7 +638,7 @@ static as_status parse_body(parser *p)
             continue;
         }
         if (c == '(') {
-            if (prev < 0)
+            if (prev < 0 || branch_empty)
                 return fail(p, AS_ERR_BRANCH, off, "branch '(' with no atom before it%s", "");
             if (pending_order)
                 return fail(p, AS_ERR_SYNTAX, pending_off, "bond symbol before '('%s", "");
@@ -805,7 +828,7 @@ as_status as_reaction_parse(const char *text, size_t len, as_reaction **out, as_
         }
     }
     if (nsep != 2)
-        return as_error_set(err, AS_ERR_REACTION, (long)end, -1,
+        return as_error_set(err, AS_ERR_REACTION, nsep ? (long)sep[nsep - 1] : (long)end, -1,
                             "a reaction SMILES needs two '>' (reactants>agents>products); "
                             "found %d",
                             nsep);

@@ -163,7 +163,7 @@ static void smiles_should_report_each_error_with_its_offset(void **state)
         {"C1CCC", AS_ERR_RING, 1},          /* unclosed ring bond: at its opening digit */
         {"C11", AS_ERR_RING, 2},            /* ring bond to itself */
         {"C12CCCCC12", AS_ERR_RING, 9},     /* duplicate bond between the same atoms */
-        {"C-1CCCCC=1", AS_ERR_RING, 9},     /* conflicting ring-bond orders */
+        {"C-1CCCCC=1", AS_ERR_RING, 8},     /* conflicting ring-bond orders: the second symbol */
         {"C.1CC1", AS_ERR_SYNTAX, 2},       /* ring digit after '.' */
         {"CC(C", AS_ERR_BRANCH, 2},         /* unclosed branch: at '(' */
         {"CC)C", AS_ERR_BRANCH, 2},         /* extra ')' */
@@ -182,7 +182,7 @@ static void smiles_should_report_each_error_with_its_offset(void **state)
         {"C(C)(C)(C)(C)C", AS_ERR_VALENCE, 0}, /* pentavalent carbon */
         {"Cc", AS_ERR_AROMATIC, 1},         /* aromatic atom outside a ring */
         {"c1cccc1", AS_ERR_AROMATIC, 0},    /* cannot be kekulised */
-        {"c1ccnc1", AS_ERR_AROMATIC, 0},    /* pyrrole N needs [nH] */
+        {"c1ccnc1", AS_ERR_AROMATIC, 4},    /* pyrrole N needs [nH]: points at the n */
         {"C/C(\\F)=C/F", AS_ERR_STEREO, 4}, /* conflicting marks: the second */
         {"C[C@AL1]", AS_ERR_UNSUPPORTED, 3},
         {"[C@SP1](F)(Cl)(Br)I", AS_ERR_UNSUPPORTED, 2},
