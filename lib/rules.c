@@ -5,6 +5,7 @@
  * Every string of a rule borrows from the rule's cJSON document, which the rule keeps until
  * as_rules_free; arrays of variants, figures and hazards are separate allocations. */
 #include "addsite/rules.h"
+#include "addsite/smiles.h"
 #include "rules_int.h"
 
 #include <cjson/cJSON.h>
@@ -354,8 +355,39 @@ static as_status load_agents(const vctx *c, const cJSON *vobj, const char *path,
         path_index(pi, p, i);
         if (!cJSON_IsString(e) || !e->valuestring[0])
             return fail(c, pi, "expected a SMILES string, found %s", json_type_name(e));
-        vi->sets[i].text = e->valuestring;
+        as_agent_set *set = &vi->sets[i];
+        set->text = e->valuestring;
         vi->nsets++;
+        as_error se;
+        as_error_clear(&se);
+        as_status st = as_rules_canon_parts(set->text, strlen(set->text), &set->canon, &set->n,
+                                            &se);
+        if (st == AS_ERR_NOMEM)
+            return as_error_set(c->err, st, -1, -1, "out of memory");
+        if (st != AS_OK)
+            return fail(c, pi, "agent set \"%.40s\" is not valid SMILES at byte %ld: %s",
+                        set->text, se.offset, se.msg);
+    }
+    return AS_OK;
+}
+
+/* A product group or reagent formula must be readable SMILES. */
+static as_status check_smiles(const vctx *c, const char *path, const char *key, const char *smi)
+{
+    char p[MAX_PATH_TEXT];
+    if (!smi)
+        return AS_OK;
+    as_mol *m = NULL;
+    as_error se;
+    as_error_clear(&se);
+    as_status st = as_smiles_parse(smi, strlen(smi), &m, &se);
+    as_mol_free(m);
+    if (st == AS_ERR_NOMEM)
+        return as_error_set(c->err, st, -1, -1, "out of memory");
+    if (st != AS_OK) {
+        path_key(p, path, key);
+        return fail(c, p, "\"%.40s\" is not valid SMILES at byte %ld: %s", smi, se.offset,
+                    se.msg);
     }
     return AS_OK;
 }
@@ -397,6 +429,13 @@ static as_status load_variant(const vctx *c, const cJSON *vobj, const char *path
         } else if (!v->first || !v->second) {
             return fail(c, path, "needs both \"first\" and \"second\" groups (or a \"bridge\")");
         }
+    }
+    static const char *const group_keys[] = {"first", "second", "bridge", "reagent_smiles"};
+    const char *groups[] = {v->first, v->second, v->bridge, v->reagent_smiles};
+    for (int g = 0; g < 4; g++) {
+        st = check_smiles(c, path, group_keys[g], groups[g]);
+        if (st != AS_OK)
+            return st;
     }
     st = compile_list(c, vobj, path, "patterns", 1, &vi->pats, &vi->npats);
     if (st != AS_OK)

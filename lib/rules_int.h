@@ -77,6 +77,12 @@ struct as_rules {
 AS_INTERNAL as_status as_rules_normalise(const char *text, size_t len, char **out,
                                          as_error *err);
 
+/* Canonical SMILES of each component of the SMILES text (atom maps and stereo marks
+ * dropped): new array of new strings in *parts (caller frees each and the array), *n set.
+ * Errors are those of the SMILES reader (err->offset into text). */
+AS_INTERNAL as_status as_rules_canon_parts(const char *text, size_t len, char ***parts, int *n,
+                                           as_error *err);
+
 /* The installed rule directory compiled in (AS_RULES_DIR), or NULL when none was set. */
 AS_INTERNAL const char *as_rules_default_dir(void);
 

@@ -16,6 +16,7 @@
 #include <sys/stat.h>
 
 #include "addsite/rules.h"
+#include "addsite/smiles.h"
 #include "rules_int.h"
 
 /* ---------------------------------------------------------------- helpers */
@@ -624,6 +625,127 @@ static void rules_load_dir_should_reject_a_duplicate_id_across_files(void **stat
     assert_contains(err.msg, "no/such/dir");
 }
 
+static void rules_loader_should_reject_an_agent_set_that_is_not_smiles(void **state)
+{
+    (void)state;
+    expect_bad_file("tests/data/rules/bad_agent.json",
+                    "bad_agent.json: $.variants[0].agents[1]: agent set \"C1CC\" is not valid "
+                    "SMILES", NULL);
+}
+
+static void rules_loader_should_reject_a_product_group_that_is_not_smiles(void **state)
+{
+    (void)state;
+    expect_bad_file("tests/data/rules/bad_group_smiles.json",
+                    "bad_group_smiles.json: $.variants[0].second: \"B(r\" is not valid SMILES",
+                    NULL);
+}
+
+/* ---------------------------------------------------------------- agent recognition */
+
+static as_status recognise_smiles(const as_rules *t, const char *smi, as_reagent_match *m,
+                                  as_error *err)
+{
+    as_mol *mol = NULL;
+    as_status st = as_smiles_parse(smi, strlen(smi), &mol, err);
+    if (st != AS_OK)
+        fail_msg("test SMILES %s: %s", smi, err->msg);
+    st = as_rules_recognise_agents(t, mol, m, err);
+    as_mol_free(mol);
+    return st;
+}
+
+static void rules_should_recognise_agent_sets_from_reaction_smiles(void **state)
+{
+    (void)state;
+    as_rules *t = load_source_table();
+    /* agent sets as they appear in reaction SMILES (common practice in reaction data):
+     * solvents and counter-ions may come along, atom maps and component order do not
+     * matter */
+    static const char *const cases[][3] = {
+        {"B.C1CCOC1", "hydroboration", "BH3; H2O2/NaOH"},
+        {"B.OO.[Na+].[OH-]", "hydroboration", "BH3; H2O2/NaOH"},
+        {"C[S+](C)[BH3-]", "hydroboration", "BH3; H2O2/NaOH"},
+        {"C1CCOC1.B1C2CCCC1CCC2", "hydroboration_9bbn", "9-BBN; H2O2/NaOH"},
+        {"CC(C)C(C)BC(C)C(C)C.OO.[OH-].[Na+]", "hydroboration_sia2bh", "Sia2BH; H2O2/NaOH"},
+        {"CC(=O)O[Hg]OC(C)=O.O", "oxymercuration", "Hg(OAc)2/H2O; NaBH4"},
+        {"O.CC(=O)O[Hg]OC(C)=O.[BH4-].[Na+].C1CCOC1", "oxymercuration", "Hg(OAc)2/H2O; NaBH4"},
+        {"CC(=O)O[Hg]OC(C)=O.CO.[BH4-].[Na+]", "alkoxymercuration", "Hg(II)/MeOH; NaBH4"},
+        {"Br", "hx", "HBr"},
+        {"[BrH:4]", "hx", "HBr"},
+        {"Cl", "hx", "HCl"},
+        {"I", "hx", "HI"},
+        {"Br.OO", "hbr_radical", "HBr/ROOR"},
+        {"CC(C)(C)OOC(C)(C)C.Br", "hbr_radical", "HBr/ROOR"},
+        {"O.OS(=O)(=O)O", "acid_hydration", "H2O/H2SO4"},
+        {"BrBr", "halogenation", "Br2"},
+        {"ClCl.ClCCl", "halogenation", "Cl2"},
+        {"BrBr.O", "halohydrin", "Br2/H2O"},
+        {"O=C1CCC(=O)N1Br.O.CS(C)=O", "halohydrin", "NBS/H2O"},
+        {"OOC(=O)c1cccc(Cl)c1.ClCCl", "epoxidation", "mCPBA"},
+        {"CC(=O)OO", "epoxidation", "peracetic acid"},
+        {"O=[Os](=O)(=O)=O.C[N+]1([O-])CCOCC1", "syn_dihydroxylation", "OsO4/NMO"},
+        {"[H][H].[Pd]", "hydrogenation", "H2/Pd"},
+        {"[Pt].[H][H].CC(=O)O", "hydrogenation", "H2/Pt"},
+        {"[O-][O+]=O.CSC", "ozonolysis", "O3; Me2S"},
+        {"O=[O+][O-].[Zn]", "ozonolysis", "O3; Zn"},
+        {"[O-][O+]=O.OO", "ozonolysis", "O3; H2O2"},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        as_reagent_match m;
+        as_error err;
+        as_status st = recognise_smiles(t, cases[i][0], &m, &err);
+        if (st != AS_OK)
+            fail_msg("agents %s: %s", cases[i][0], err.msg);
+        if (strcmp(m.rule->id, cases[i][1]) != 0 || strcmp(m.variant->name, cases[i][2]) != 0)
+            fail_msg("agents %s: got %s / %s, want %s / %s", cases[i][0], m.rule->id,
+                     m.variant->name, cases[i][1], cases[i][2]);
+        assert_int_equal(m.has_temp, 0);
+    }
+
+    /* the agent role of a reaction SMILES, as the reader hands it over */
+    as_reaction *rx = NULL;
+    as_error err;
+    const char *text = "CC=C>Br>CC(C)Br";
+    assert_int_equal(as_reaction_parse(text, strlen(text), &rx, &err), AS_OK);
+    as_reagent_match m;
+    assert_int_equal(as_rules_recognise_agents(t, rx->role[AS_ROLE_AGENTS], &m, &err), AS_OK);
+    assert_string_equal(m.rule->id, "hx");
+    as_reaction_free(rx);
+    text = "CC=C>>CC(C)Br";
+    assert_int_equal(as_reaction_parse(text, strlen(text), &rx, &err), AS_OK);
+    assert_int_equal(as_rules_recognise_agents(t, rx->role[AS_ROLE_AGENTS], &m, &err),
+                     AS_ERR_EMPTY);
+    as_reaction_free(rx);
+
+    /* a molecule that was read but not perceived */
+    as_mol *raw = NULL;
+    assert_int_equal(as_smiles_read("OO.Br", 5, NULL, &raw, &err), AS_OK);
+    assert_int_equal(as_rules_recognise_agents(t, raw, &m, &err), AS_OK);
+    assert_string_equal(m.rule->id, "hbr_radical");
+    as_mol_free(raw);
+    as_rules_free(t);
+}
+
+static void rules_should_report_unknown_and_ambiguous_agents(void **state)
+{
+    (void)state;
+    as_rules *t = load_source_table();
+    as_reagent_match m;
+    as_error err;
+    assert_int_equal(recognise_smiles(t, "OCC", &m, &err), AS_ERR_REAGENT);
+    assert_null(m.rule);
+    assert_contains(err.msg, "not recognised");
+    assert_contains(err.msg, "CCO");
+    assert_contains(err.msg, "syn_dihydroxylation");
+    assert_int_equal(recognise_smiles(t, "Br.BrBr", &m, &err), AS_ERR_REAGENT);
+    assert_contains(err.msg, "ambiguous");
+    assert_contains(err.msg, "hx (HBr)");
+    assert_contains(err.msg, "halogenation (Br2)");
+    assert_int_equal(as_rules_recognise_agents(t, NULL, &m, &err), AS_ERR_ARG);
+    as_rules_free(t);
+}
+
 /* ---------------------------------------------------------------- search order */
 
 static void rules_load_should_follow_the_search_order(void **state)
@@ -721,7 +843,11 @@ int main(void)
         cmocka_unit_test(rules_loader_should_reject_an_unknown_key),
         cmocka_unit_test(rules_loader_should_reject_a_missing_group),
         cmocka_unit_test(rules_loader_should_give_line_and_column_of_a_syntax_error),
+        cmocka_unit_test(rules_loader_should_reject_an_agent_set_that_is_not_smiles),
+        cmocka_unit_test(rules_loader_should_reject_a_product_group_that_is_not_smiles),
         cmocka_unit_test(rules_load_dir_should_reject_a_duplicate_id_across_files),
+        cmocka_unit_test(rules_should_recognise_agent_sets_from_reaction_smiles),
+        cmocka_unit_test(rules_should_report_unknown_and_ambiguous_agents),
         cmocka_unit_test(rules_load_should_follow_the_search_order),
         cmocka_unit_test(rules_table_should_be_shared_by_threads),
     };
