@@ -105,8 +105,9 @@ static int kind_ok(const cJSON *v, kind k)
     case K_BOOL: return cJSON_IsBool(v);
     case K_NUM: return cJSON_IsNumber(v);
     case K_INT:
-        return cJSON_IsNumber(v) && v->valuedouble == (double)(long)v->valuedouble &&
-               v->valuedouble >= -1e6 && v->valuedouble <= 1e6;
+        /* range first: casting an out-of-range double to long is undefined */
+        return cJSON_IsNumber(v) && v->valuedouble >= -1e6 && v->valuedouble <= 1e6 &&
+               v->valuedouble == (double)(long)v->valuedouble;
     case K_ARR: return cJSON_IsArray(v);
     case K_OBJ: return cJSON_IsObject(v);
     case K_STR_OR_NULL: return cJSON_IsNull(v) || (cJSON_IsString(v) && v->valuestring);
@@ -683,10 +684,19 @@ as_status as_rules_add_json(as_rules **tab, const char *name, const char *json, 
             as_error_set(err, AS_ERR_RULE, (long)at, -1,
                          "%s:%ld:%ld: JSON syntax error: the text ends too early", c.file, line,
                          col);
-        else
+        else {
+            /* quote at most 12 bytes, within the buffer and the line */
+            int show = 0;
+            while (show < 12 && at + (size_t)show < len && json[at + (size_t)show] != '\n' &&
+                   json[at + (size_t)show] != '\r')
+                show++;
+            while (show > 0 && at + (size_t)show < len &&
+                   ((unsigned char)json[at + (size_t)show] & 0xC0) == 0x80)
+                show--;   /* do not cut a UTF-8 sequence */
             as_error_set(err, AS_ERR_RULE, (long)at, -1,
-                         "%s:%ld:%ld: JSON syntax error near '%.12s'", c.file, line, col,
+                         "%s:%ld:%ld: JSON syntax error near '%.*s'", c.file, line, col, show,
                          json + at);
+        }
         if (err) {
             err->line = line;
             err->column = col;

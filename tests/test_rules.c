@@ -641,6 +641,49 @@ static void rules_loader_should_reject_a_product_group_that_is_not_smiles(void *
                     NULL);
 }
 
+/* Bad input gets an error value, never a crash: every truncation of a real rule file and
+ * a few thousand byte substitutions (fixed seed) either load or fail with a rule/encoding
+ * error. Run under AddressSanitizer this also checks that failures free everything. */
+static void rules_loader_should_survive_truncated_and_mutated_files(void **state)
+{
+    (void)state;
+    char *path = path_of("reactions/hbr_radical.json");
+    size_t len = 0;
+    char *json = slurp(path, &len);
+    int ok = 0;
+    for (size_t cut = 0; cut <= len; cut++) {
+        as_rules *t = NULL;
+        as_error err;
+        as_status st = as_rules_add_json(&t, "cut.json", json, cut, &err);
+        assert_true(st == AS_OK || st == AS_ERR_RULE);
+        assert_true(st != AS_ERR_RULE || (err.msg[0] && !t));
+        ok += st == AS_OK;
+        as_rules_free(t);
+    }
+    /* only the whole file and the file without (part of) its final newline load */
+    assert_true(ok >= 1 && ok <= 2);
+    char *copy = malloc(len);
+    assert_non_null(copy);
+    static const char alphabet[] = "{}[]\",:0-9 \\e.(?nul\x01\xc3\xff";
+    unsigned long seed = 12345;
+    for (int k = 0; k < 3000; k++) {
+        memcpy(copy, json, len);
+        for (int j = 0; j < 1 + k % 3; j++) {
+            seed = seed * 6364136223846793005UL + 1442695040888963407UL;
+            size_t at = (size_t)(seed >> 33) % len;
+            copy[at] = alphabet[(seed >> 17) % (sizeof alphabet - 1)];
+        }
+        as_rules *t = NULL;
+        as_error err;
+        as_status st = as_rules_add_json(&t, "mutated.json", copy, len, &err);
+        assert_true(st == AS_OK || st == AS_ERR_RULE || st == AS_ERR_ENCODING);
+        as_rules_free(t);
+    }
+    free(copy);
+    free(json);
+    free(path);
+}
+
 /* ---------------------------------------------------------------- agent recognition */
 
 static as_status recognise_smiles(const as_rules *t, const char *smi, as_reagent_match *m,
@@ -846,6 +889,7 @@ int main(void)
         cmocka_unit_test(rules_loader_should_reject_an_agent_set_that_is_not_smiles),
         cmocka_unit_test(rules_loader_should_reject_a_product_group_that_is_not_smiles),
         cmocka_unit_test(rules_load_dir_should_reject_a_duplicate_id_across_files),
+        cmocka_unit_test(rules_loader_should_survive_truncated_and_mutated_files),
         cmocka_unit_test(rules_should_recognise_agent_sets_from_reaction_smiles),
         cmocka_unit_test(rules_should_report_unknown_and_ambiguous_agents),
         cmocka_unit_test(rules_load_should_follow_the_search_order),
