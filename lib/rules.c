@@ -482,6 +482,9 @@ static as_status load_figure(const vctx *c, const cJSON *fobj, const char *path,
         return fail(c, p, "%g is outside 0..100", f->percent);
     }
     f->example = get_str(fobj, "example");
+    st = check_smiles(c, path, "example", f->example);
+    if (st != AS_OK)
+        return st;
     f->source = get_str(fobj, "source");
     return AS_OK;
 }
