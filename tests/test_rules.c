@@ -405,6 +405,13 @@ static void rules_should_list_the_table_when_nothing_is_recognised(void **state)
     assert_contains(err.msg, "hydroboration_9bbn");
     assert_contains(err.msg, "ozonolysis");
     assert_contains(err.msg, "syn_dihydroxylation");   /* the last id still fits */
+    /* a variant veto: hot or acidic permanganate cleaves the C=C instead */
+    const char *hot = "KMnO4, H2SO4, heat";
+    assert_int_equal(as_rules_recognise(t, hot, strlen(hot), &m, &err), AS_ERR_REAGENT);
+    /* a rule veto: "no peroxide" keeps HBr with the ionic rule even when peroxides appear */
+    const char *ionic = "HBr, no peroxides";
+    assert_int_equal(as_rules_recognise(t, ionic, strlen(ionic), &m, &err), AS_OK);
+    assert_string_equal(m.rule->id, "hx");
     /* NBS alone is allylic bromination, not an addition in this table */
     assert_int_equal(as_rules_recognise(t, "NBS, CCl4, hv", 13, &m, &err), AS_ERR_REAGENT);
     as_rules_free(t);
