@@ -77,6 +77,7 @@ typedef struct canon_ctx {
     char *real_tetra;  /* per tetra record */
     char *real_db;     /* per dbs record */
     int has_stereo;
+    char *near_stereo; /* per atom: a real stereo element's atom or its neighbour */
     /* refinement scratch */
     int *order;
     int *tmp;
@@ -322,10 +323,27 @@ static void find_real_stereo(canon_ctx *c)
         }
         c->real_db[i] = (char)ok;
     }
-    for (int i = 0; i < m->ntetra; i++)
-        c->has_stereo |= c->real_tetra[i];
-    for (int i = 0; i < m->ndbs; i++)
-        c->has_stereo |= c->real_db[i];
+    for (int i = 0; i < m->ntetra; i++) {
+        if (!c->real_tetra[i])
+            continue;
+        c->has_stereo = 1;
+        int a = m->tetra[i].center;
+        c->near_stereo[a] = 1;
+        for (int k = 0; k < m->atoms[a].degree; k++)
+            c->near_stereo[m->atoms[a].nbr[k]] = 1;
+    }
+    for (int i = 0; i < m->ndbs; i++) {
+        if (!c->real_db[i])
+            continue;
+        c->has_stereo = 1;
+        const as_bond *b = &m->bonds[m->dbs[i].bond];
+        for (int e = 0; e < 2; e++) {
+            int a = e ? b->b : b->a;
+            c->near_stereo[a] = 1;
+            for (int k = 0; k < m->atoms[a].degree; k++)
+                c->near_stereo[m->atoms[a].nbr[k]] = 1;
+        }
+    }
 }
 
 /* ---------------------------------------------------------------- writer */
@@ -486,8 +504,6 @@ static int written_nbrs(const writer *w, int a, int *out, int with_h)
     int n = 0;
     if (w->parent[a] >= 0)
         out[n++] = w->parent[a];
-    if (with_h)
-        out[n++] = AS_IMPLICIT_H;
     int rbs[AS_MAX_DEGREE];
     int nr = ring_bonds_at(w, a, rbs);
     for (int i = 0; i < nr; i++) {
@@ -496,6 +512,16 @@ static int written_nbrs(const writer *w, int a, int *out, int with_h)
     }
     for (int k = w->child_start[a]; k < w->child_start[a + 1]; k++)
         out[n++] = w->children[k];
+    if (with_h) {
+        /* an H goes where it is written (after the parent, else first); a lone pair of a
+         * three-coordinate centre always takes the second place (see smiles_read.c) */
+        int pos = (w->parent[a] >= 0 || w->c->m->atoms[a].total_h == 0) ? 1 : 0;
+        if (pos > n)
+            pos = n;
+        memmove(out + pos + 1, out + pos, (size_t)(n - pos) * sizeof(int));
+        out[pos] = AS_IMPLICIT_H;
+        n++;
+    }
     return n;
 }
 
@@ -544,6 +570,18 @@ static int written_chirality(const writer *w, int a)
 }
 
 /* ---------------------------------------------------------------- double-bond marks */
+
+/* 1 when atom a has a non-aromatic single bond other than bond skip. */
+static int has_plain_single(const as_mol *m, int a, int skip)
+{
+    const as_atom *at = &m->atoms[a];
+    for (int k = 0; k < at->degree; k++) {
+        const as_bond *b = &m->bonds[at->nbond[k]];
+        if (at->nbond[k] != skip && b->order == AS_BOND_SINGLE && !b->aromatic)
+            return 1;
+    }
+    return 0;
+}
 
 /* Assigns '/' '\' to single bonds next to real stereo double bonds, by propagation. Each
  * marked bond's value is the side of its second-written atom relative to its first. */
@@ -637,8 +675,11 @@ static void assign_dirs(writer *w)
                 const as_atom *u = &m->atoms[ends[e]];
                 for (int k = 0; k < u->degree; k++) {
                     int bk = u->nbond[k];
-                    if (bk == d->bond || m->bonds[bk].order != AS_BOND_SINGLE ||
-                        m->bonds[bk].aromatic)
+                    if (bk == d->bond || m->bonds[bk].order == AS_BOND_DOUBLE ||
+                        m->bonds[bk].order == AS_BOND_TRIPLE)
+                        continue;
+                    /* aromatic ring bonds carry a mark only when nothing else can */
+                    if (m->bonds[bk].aromatic && has_plain_single(m, ends[e], d->bond))
                         continue;
                     int side = u->nbr[k] == refs[e] ? ref_side[e] : -ref_side[e];
                     int val = w->written_first[bk] == ends[e] ? side : -side;
@@ -670,7 +711,7 @@ static int implied_h(const as_mol *m, int a, int aromatic_out)
     }
     int v = as_default_valence(at->elem, sum);
     if (v < 0)
-        return 0;
+        return -1; /* above every normal valence: toolkits disagree, so write brackets */
     int h = v - sum - (aromatic_out && at->aromatic ? 1 : 0);
     return h > 0 ? h : 0;
 }
@@ -734,8 +775,11 @@ static void write_bond(const writer *w, sbuf *sb, int b, int from)
     const as_mol *m = w->c->m;
     const as_bond *bd = &m->bonds[b];
     (void)from;
-    if (bd->aromatic)
+    if (bd->aromatic) {
+        if (w->dir[b])
+            sb_putc(sb, w->dir[b] > 0 ? '/' : '\\');
         return;
+    }
     switch (bd->order) {
     case AS_BOND_DOUBLE: sb_putc(sb, '='); return;
     case AS_BOND_TRIPLE: sb_putc(sb, '#'); return;
@@ -922,12 +966,18 @@ static void explore(canon_ctx *c, int *rank)
         memset(cnt, 0, (size_t)n * sizeof(int));
         for (int i = 0; i < n; i++)
             cnt[rank[i]]++;
-        int r = -1;
+        /* the tie to break: the first tied class next to a stereo element when there is
+         * one (explored exhaustively below), else simply the first tied class */
+        int r = -1, r_near = -1;
         for (int i = 0; i < n; i++)
-            if (cnt[i] > 1) {
-                r = i;
-                break;
+            if (cnt[rank[i]] > 1) {
+                if (r < 0 || rank[i] < r)
+                    r = rank[i];
+                if (c->has_stereo && c->near_stereo[i] && (r_near < 0 || rank[i] < r_near))
+                    r_near = rank[i];
             }
+        if (r_near >= 0)
+            r = r_near;
         if (r < 0) {
             as_status st;
             char *s = write_smiles(c, rank, &st);
@@ -939,13 +989,16 @@ static void explore(canon_ctx *c, int *rank)
             consider(c, s);
             break;
         }
-        /* members of the first tied class, in atom order */
+        /* members of the first tied class, in atom order; branching pays only where the
+         * class touches a stereo element (swapping the F atoms of a CF3 cannot change the
+         * string, swapping two mirror-related stereocentres can) */
+        int branch = r_near >= 0;
         int first = -1;
         for (int i = 0; i < n; i++)
             if (rank[i] == r) {
                 if (first < 0) {
                     first = i;
-                    if (!c->has_stereo)
+                    if (!branch)
                         break;
                     continue;
                 }
@@ -983,6 +1036,7 @@ static void ctx_free(canon_ctx *c)
     free(c->cls);
     free(c->real_tetra);
     free(c->real_db);
+    free(c->near_stereo);
     free(c->order);
     free(c->tmp);
     free(c->nkey);
@@ -1000,11 +1054,12 @@ static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
     c->cls = malloc(na * sizeof(int));
     c->real_tetra = calloc((size_t)(m->ntetra ? m->ntetra : 1), 1);
     c->real_db = calloc((size_t)(m->ndbs ? m->ndbs : 1), 1);
+    c->near_stereo = calloc(na, 1);
     c->order = malloc(na * sizeof(int));
     c->tmp = malloc(na * sizeof(int));
     c->nkey = malloc(na * AS_MAX_DEGREE * sizeof(int));
     c->newrank = malloc(na * sizeof(int));
-    if (!c->cls || !c->real_tetra || !c->real_db || !c->order || !c->tmp || !c->nkey ||
+    if (!c->cls || !c->real_tetra || !c->real_db || !c->near_stereo || !c->order || !c->tmp || !c->nkey ||
         !c->newrank)
         return AS_ERR_NOMEM;
     initial_ranks(c, c->cls);

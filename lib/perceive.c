@@ -581,7 +581,7 @@ static int pi_electrons(const as_mol *m, int i, const char *inring, const char *
         if (arom && arom[dbl_exo])
             return 1; /* double bond into a neighbouring aromatic ring */
         if (y->elem == 8 || y->elem == 7 || y->elem == 16)
-            return (a->elem == 6 || a->elem == 16 || a->elem == 15) ? 0 : -1;
+            return a->elem == 6 ? 0 : -1; /* C=O in pyridones, not S=O or P=O */
         return -1;
     }
     int z = a->elem - a->charge;
@@ -731,6 +731,31 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
 
 /* ---------------------------------------------------------------- pass: stereo */
 
+/* 1 when atom a is a bridgehead: it lies on two SSSR rings that share three or more atoms
+ * (a bridged, not merely fused, system), where an amine nitrogen cannot invert. */
+static int bridgehead(const as_mol *m, int a)
+{
+    for (int r1 = 0; r1 < m->nrings; r1++) {
+        int in1 = 0;
+        for (int k = m->ring_start[r1]; k < m->ring_start[r1 + 1]; k++)
+            in1 |= m->ring_atoms[k] == a;
+        if (!in1)
+            continue;
+        for (int r2 = r1 + 1; r2 < m->nrings; r2++) {
+            int in2 = 0, shared = 0;
+            for (int k = m->ring_start[r2]; k < m->ring_start[r2 + 1]; k++) {
+                int x = m->ring_atoms[k];
+                in2 |= x == a;
+                for (int j = m->ring_start[r1]; j < m->ring_start[r1 + 1]; j++)
+                    shared += m->ring_atoms[j] == x;
+            }
+            if (in2 && shared >= 3)
+                return 1;
+        }
+    }
+    return 0;
+}
+
 static as_status pass_stereo(as_mol *m, as_error *err)
 {
     (void)err;
@@ -742,13 +767,17 @@ static as_status pass_stereo(as_mol *m, as_error *err)
             nh += t->nbr[k] == AS_IMPLICIT_H;
         if (a->aromatic || a->total_h > 1 || nh > 1)
             keep = 0;
-        for (int k = 0; k < a->degree && keep; k++)
-            if (m->bonds[a->nbond[k]].order != AS_BOND_SINGLE)
+        /* P, S, Se centres may carry =O (sulfoxides, phosphonates); others all single */
+        int hyper = a->elem == 15 || a->elem == 16 || a->elem == 34;
+        for (int k = 0; k < a->degree && keep; k++) {
+            int o = m->bonds[a->nbond[k]].order;
+            if (o != AS_BOND_SINGLE && !(hyper && o == AS_BOND_DOUBLE))
                 keep = 0;
+        }
         if (keep && a->degree + a->total_h == 3) {
             /* lone-pair centres: keep S, P, Se and ring-strained N (aziridines) */
             if (a->elem == 7 && a->charge == 0)
-                keep = a->ring_size == 3;
+                keep = a->ring_size == 3 || bridgehead(m, t->center);
             else if (a->elem == 6)
                 keep = 0;
         } else if (keep && a->degree + a->total_h != 4) {

@@ -356,7 +356,7 @@ static int bond_order_of(char c)
 static as_status make_bond(parser *p, int a, int b, int order, char dir, int dir_from,
                            long dir_off, long offset)
 {
-    if (order == 0)
+    if (order <= 0)
         order = (p->m->atoms[a].aromatic && p->m->atoms[b].aromatic) ? AS_BOND_AROMATIC
                                                                       : AS_BOND_SINGLE;
     if (p->m->atoms[a].degree >= AS_MAX_DEGREE || p->m->atoms[b].degree >= AS_MAX_DEGREE)
@@ -387,9 +387,10 @@ static as_status build_tetra(parser *p)
         for (int k = 0; k < n; k++)
             hs += items[k] == AS_IMPLICIT_H;
         if (n == 3 && hs == 0) {
-            /* Lone pair (sulfoxide, phosphine, amine): it stands where an implicit H would,
-             * right after the atom we came from (first when the atom opens the SMILES). */
-            int pos = o->has_from ? 1 : 0;
+            /* Lone pair (sulfoxide, phosphine, amine): it takes the second place, right
+             * after the atom we came from or, when the atom opens the SMILES, after its
+             * first written neighbour (the reading RDKit and most toolkits share). */
+            int pos = 1;
             memmove(&items[pos + 1], &items[pos], (size_t)(n - pos) * sizeof(int));
             items[pos] = AS_IMPLICIT_H;
             n = 4;
@@ -423,6 +424,7 @@ static as_status build_dbstereo(parser *p)
         if (b->order != AS_BOND_DOUBLE)
             continue;
         int ends[2] = {b->a, b->b}, ref[2] = {-1, -1}, side[2] = {0, 0};
+        long conflict = -1;
         for (int e = 0; e < 2; e++) {
             const as_atom *u = &m->atoms[ends[e]];
             for (int j = 0; j < u->degree; j++) {
@@ -433,16 +435,18 @@ static as_status build_dbstereo(parser *p)
                 if (ref[e] < 0) {
                     ref[e] = u->nbr[j];
                     side[e] = s;
-                } else if (s == side[e]) {
-                    return fail(p, AS_ERR_STEREO, p->bond_dir_off[bk],
-                                "conflicting / \\ marks: two neighbours on the same side of "
-                                "one double-bond atom%s",
-                                "");
+                } else if (s == side[e] && conflict < 0) {
+                    conflict = p->bond_dir_off[bk];
                 }
             }
         }
         if (ref[0] < 0 || ref[1] < 0)
-            continue; /* one side unmarked: no geometry */
+            continue; /* one side unmarked: no geometry (marks may serve another bond) */
+        if (conflict >= 0)
+            return fail(p, AS_ERR_STEREO, conflict,
+                        "conflicting / \\ marks: two neighbours on the same side of one "
+                        "double-bond atom%s",
+                        "");
         as_dbstereo d = {k, ref[0], ref[1], side[0] == side[1]};
         if (as_mol_add_dbstereo(m, &d) < 0)
             return fail(p, AS_ERR_NOMEM, -1, "out of memory%s", "");
@@ -526,8 +530,9 @@ static as_status parse_body(parser *p)
             if (prev < 0)
                 return as_error_set(p->err, AS_ERR_SYNTAX, off, -1,
                                     "bond '%c' has no atom before it", c);
-            pending_order = bond_order_of(c);
             pending_dir = (c == '/' || c == '\\') ? c : 0;
+            /* a / \\ mark leaves the order open: single, or aromatic between aromatic atoms */
+            pending_order = pending_dir ? -1 : bond_order_of(c);
             pending_off = off;
             p->pos++;
             continue;
@@ -569,7 +574,7 @@ static as_status parse_body(parser *p)
                     return fail(p, AS_ERR_RING, off,
                                 "ring bond duplicates a bond that already joins these atoms%s",
                                 "");
-                int order = r->order, o2 = pending_order;
+                int order = r->order > 0 ? r->order : 0, o2 = pending_order > 0 ? pending_order : 0;
                 if (order && o2 && order != o2)
                     return fail(p, AS_ERR_RING, off,
                                 "the two ends of this ring bond give different bond orders%s",
