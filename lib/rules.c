@@ -673,18 +673,28 @@ as_status as_rules_add_json(as_rules **tab, const char *name, const char *json, 
     if (!tab || !name || (!json && len))
         return as_error_set(err, AS_ERR_ARG, -1, -1, "as_rules_add_json: NULL argument");
     vctx c = {base_name(name), err};
-    if (memchr(json, '\0', len))
-        return as_error_set(err, AS_ERR_ENCODING, (long)((const char *)memchr(json, '\0', len) -
-                                                         json), -1,
-                            "%s: NUL byte in a rule file", c.file);
+    if (!json)
+        json = "";
+    const char *nul = memchr(json, '\0', len);
+    if (nul)
+        return as_error_set(err, AS_ERR_ENCODING, (long)(nul - json), -1,
+                            "%s: NUL byte at offset %ld of a rule file", c.file,
+                            (long)(nul - json));
+    /* A UTF-8 byte-order mark (some editors write one) is skipped; it takes no column. */
+    long skip = 0;
+    if (len >= 3 && memcmp(json, "\xEF\xBB\xBF", 3) == 0) {
+        json += 3;
+        len -= 3;
+        skip = 3;
+    }
     const char *end = NULL;
-    cJSON *doc = cJSON_ParseWithLengthOpts(json ? json : "", len, &end, 0);
+    cJSON *doc = cJSON_ParseWithLengthOpts(json, len, &end, 0);
     if (!doc) {
         size_t at = end && end >= json && end <= json + len ? (size_t)(end - json) : len;
         long line = 0, col = 0;
-        line_col(json ? json : "", at, &line, &col);
+        line_col(json, at, &line, &col);
         if (at >= len)
-            as_error_set(err, AS_ERR_RULE, (long)at, -1,
+            as_error_set(err, AS_ERR_RULE, (long)at + skip, -1,
                          "%s:%ld:%ld: JSON syntax error: the text ends too early", c.file, line,
                          col);
         else {
@@ -696,7 +706,7 @@ as_status as_rules_add_json(as_rules **tab, const char *name, const char *json, 
             while (show > 0 && at + (size_t)show < len &&
                    ((unsigned char)json[at + (size_t)show] & 0xC0) == 0x80)
                 show--;   /* do not cut a UTF-8 sequence */
-            as_error_set(err, AS_ERR_RULE, (long)at, -1,
+            as_error_set(err, AS_ERR_RULE, (long)at + skip, -1,
                          "%s:%ld:%ld: JSON syntax error near '%.*s'", c.file, line, col, show,
                          json + at);
         }
@@ -714,7 +724,7 @@ as_status as_rules_add_json(as_rules **tab, const char *name, const char *json, 
         long line = 0, col = 0;
         line_col(json, (size_t)(q - json), &line, &col);
         cJSON_Delete(doc);
-        as_error_set(err, AS_ERR_RULE, (long)(q - json), -1,
+        as_error_set(err, AS_ERR_RULE, (long)(q - json) + skip, -1,
                      "%s:%ld:%ld: JSON syntax error: text after the end of the rule object",
                      c.file, line, col);
         if (err) {

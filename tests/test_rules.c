@@ -610,6 +610,15 @@ static void rules_loader_should_give_line_and_column_of_a_syntax_error(void **st
     assert_int_equal(as_rules_add_json(&t, "two.json", "{}\n{}", 5, &err), AS_ERR_RULE);
     assert_int_equal(err.line, 2);
     assert_int_equal(err.column, 1);
+    /* a byte-order mark is skipped and takes no column */
+    assert_int_equal(as_rules_add_json(&t, "bom.json", "\xEF\xBB\xBF{,}", 6, &err),
+                     AS_ERR_RULE);
+    assert_int_equal(err.line, 1);
+    assert_true(err.offset >= 4);                 /* byte offsets count the mark ... */
+    assert_int_equal(err.column, err.offset - 2); /* ... columns do not */
+    assert_int_equal(as_rules_add_json(&t, "nul.json", "{\0}", 3, &err), AS_ERR_ENCODING);
+    assert_int_equal(err.offset, 1);
+    assert_int_equal(as_rules_add_json(&t, "empty.json", NULL, 0, &err), AS_ERR_RULE);
     assert_int_equal(as_rules_add_json(&t, "list.json", "[1]", 3, &err), AS_ERR_RULE);
     assert_contains(err.msg, "list.json: $: expected an object, found an array");
     assert_null(t);
