@@ -166,6 +166,8 @@ as_status as_rules_init_extras(as_rules *t, as_error *err)
     if (!t->temp_re || !t->equiv_re)
         return as_error_set(err, AS_ERR_NOMEM, -1, -1,
                             "could not compile the built-in temperature patterns");
+    (void)pcre2_jit_compile(t->temp_re, PCRE2_JIT_COMPLETE);   /* optional speed-up */
+    (void)pcre2_jit_compile(t->equiv_re, PCRE2_JIT_COMPLETE);
     return AS_OK;
 }
 
