@@ -12,6 +12,10 @@
 #include "addsite/rules.h"
 #include "status_int.h"
 
+/* Longest reagent text as_rules_recognise accepts, bytes (a reagent column is a line, not a
+ * document; the limit keeps matching time bounded). */
+#define AS_REAGENT_TEXT_MAX 4096
+
 /* One rule file compiled into the library by cmake/rules_embed.cmake (the generated
  * rules_embedded.c defines the array, sorted by name). */
 typedef struct as_rules_blob {

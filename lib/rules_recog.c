@@ -252,6 +252,10 @@ as_status as_rules_recognise(const as_rules *t, const char *text, size_t len,
         return as_error_set(err, AS_ERR_ARG, -1, -1, "as_rules_recognise: NULL argument");
     memset(out, 0, sizeof *out);
     out->temp_c = NAN;
+    if (len > AS_REAGENT_TEXT_MAX)
+        return as_error_set(err, AS_ERR_LIMIT, (long)AS_REAGENT_TEXT_MAX, -1,
+                            "reagent text of %lu bytes is longer than the %d accepted",
+                            (unsigned long)len, AS_REAGENT_TEXT_MAX);
     char *s = NULL;
     as_status st = as_rules_normalise(text, len, &s, err);
     if (st != AS_OK)

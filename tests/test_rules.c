@@ -467,6 +467,16 @@ static void rules_should_refuse_blank_and_malformed_text(void **state)
     assert_int_equal(as_rules_recognise(t, "HBr \xe2\x82", 6, &m, &err), AS_ERR_ENCODING);
     assert_int_equal(err.offset, 4);
     assert_int_equal(as_rules_recognise(NULL, "HBr", 3, &m, &err), AS_ERR_ARG);
+    /* a whole document is not a reagent text; the longest accepted one still works */
+    char *big = malloc(AS_REAGENT_TEXT_MAX + 2);
+    assert_non_null(big);
+    memset(big, ' ', AS_REAGENT_TEXT_MAX + 1);
+    memcpy(big + AS_REAGENT_TEXT_MAX - 3, "HBr", 3);
+    assert_int_equal(as_rules_recognise(t, big, AS_REAGENT_TEXT_MAX + 1, &m, &err),
+                     AS_ERR_LIMIT);
+    assert_int_equal(as_rules_recognise(t, big, AS_REAGENT_TEXT_MAX, &m, &err), AS_OK);
+    assert_string_equal(m.rule->id, "hx");
+    free(big);
     /* only len bytes are read: "HBr" inside a longer buffer */
     assert_int_equal(as_rules_recognise(t, "HBrXYZ", 3, &m, &err), AS_OK);
     assert_string_equal(m.rule->id, "hx");
