@@ -268,7 +268,7 @@ as_status as_rules_recognise(const as_rules *t, const char *text, size_t len,
     }
 
     const as_rule_int *best = NULL;
-    int best_var = -1, tie = -1;
+    int best_var = -1, tie = -1, tie_var = -1;
     for (int i = 0; i < t->n; i++) {
         const as_rule_int *r = t->rules[i];
         if (any_match(r->unless, r->nunless, s, n, md))
@@ -288,6 +288,7 @@ as_status as_rules_recognise(const as_rules *t, const char *text, size_t len,
             tie = -1;
         } else if (r->priority == best->priority && tie < 0) {
             tie = i;
+            tie_var = hit;
         }
     }
 
@@ -297,17 +298,7 @@ as_status as_rules_recognise(const as_rules *t, const char *text, size_t len,
                           "reagents \"%.60s\" are ambiguous: they match %s (%s) and %s (%s) "
                           "equally; name one reagent set or pass the rule id",
                           s, best->pub.id, best->vars[best_var].name, o->pub.id,
-                          o->vars[0].name);
-        /* name the variant of the competitor that matched */
-        for (int v = 0; v < o->pub.nvariants; v++)
-            if (any_match(o->vi[v].pats, o->vi[v].npats, s, n, md)) {
-                as_error_set(err, AS_ERR_REAGENT, -1, -1,
-                             "reagents \"%.60s\" are ambiguous: they match %s (%s) and %s "
-                             "(%s) equally; name one reagent set or pass the rule id",
-                             s, best->pub.id, best->vars[best_var].name, o->pub.id,
-                             o->vars[v].name);
-                break;
-            }
+                          o->vars[tie_var].name);
     } else if (!best) {
         const char *hint = NULL;
         for (int i = 0; i < t->n && !hint; i++)
