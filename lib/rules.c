@@ -229,6 +229,7 @@ static void rule_free(as_rule_int *r)
                 }
                 free(v->sets);
             }
+            free(v->set_texts);
         }
         free(r->vi);
     }
@@ -352,7 +353,8 @@ static as_status load_agents(const vctx *c, const cJSON *vobj, const char *path,
     if (n == 0)
         return AS_OK;
     vi->sets = calloc((size_t)n, sizeof *vi->sets);
-    if (!vi->sets)
+    vi->set_texts = calloc((size_t)n, sizeof *vi->set_texts);
+    if (!vi->sets || !vi->set_texts)
         return as_error_set(c->err, AS_ERR_NOMEM, -1, -1, "out of memory");
     int i = 0;
     for (const cJSON *e = arr->child; e; e = e->next, i++) {
@@ -361,6 +363,7 @@ static as_status load_agents(const vctx *c, const cJSON *vobj, const char *path,
             return fail(c, pi, "expected a SMILES string, found %s", json_type_name(e));
         as_agent_set *set = &vi->sets[i];
         set->text = e->valuestring;
+        vi->set_texts[i] = e->valuestring;
         vi->nsets++;
         as_error se;
         as_error_clear(&se);
@@ -447,7 +450,12 @@ static as_status load_variant(const vctx *c, const cJSON *vobj, const char *path
     st = compile_list(c, vobj, path, "unless", 0, &vi->unless, &vi->nunless);
     if (st != AS_OK)
         return st;
-    return load_agents(c, vobj, path, vi);
+    st = load_agents(c, vobj, path, vi);
+    if (st != AS_OK)
+        return st;
+    v->nagents = vi->nsets;
+    v->agents = vi->set_texts;
+    return AS_OK;
 }
 
 static const keyspec figure_spec[] = {

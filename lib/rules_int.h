@@ -43,6 +43,7 @@ typedef struct as_variant_int {
     int nunless;
     as_agent_set *sets;
     int nsets;
+    const char **set_texts;   /* owned array, strings borrow the JSON document */
 } as_variant_int;
 
 /* A near miss: text that names the rule's reagent but not enough of it to pick a product. */

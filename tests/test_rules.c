@@ -149,6 +149,9 @@ static void rules_embedded_copy_should_agree_with_the_source_dir(void **state)
             assert_true(same_str(p->bridge, q->bridge));
             assert_true(same_str(p->workup, q->workup));
             assert_true(same_str(p->reagent_smiles, q->reagent_smiles));
+            assert_int_equal(p->nagents, q->nagents);
+            for (int k = 0; k < p->nagents; k++)
+                assert_string_equal(p->agents[k], q->agents[k]);
         }
         assert_int_equal(x->nfigures, y->nfigures);
         for (int f = 0; f < x->nfigures; f++) {
@@ -771,6 +774,12 @@ static void rules_should_recognise_agent_sets_from_reaction_smiles(void **state)
                      m.variant->name, cases[i][1], cases[i][2]);
         assert_int_equal(m.has_temp, 0);
     }
+
+    /* the sets are listed on the variant as written in the file */
+    const as_rule_variant *hb = &as_rules_find(t, "hydroboration")->variants[0];
+    assert_true(hb->nagents >= 2);
+    assert_string_equal(hb->agents[0], "B");
+    assert_int_equal(as_rules_find(t, "epoxidation")->variants[2].nagents, 0);   /* MMPP */
 
     /* the agent role of a reaction SMILES, as the reader hands it over */
     as_reaction *rx = NULL;
