@@ -4,7 +4,10 @@
  *
  * The reader pulls bytes from three layers, in this order: a replay buffer (bytes of a broken
  * multi-line CSV record handed back so the lines after its first are read again), the current
- * chunk (the caller's memory, or 64 KiB decompressed by zlib), then zlib for the next chunk.
+ * chunk (the caller's memory, or up to 64 KiB read or inflated), then the file for the next
+ * chunk. Gzip is recognised by its two magic bytes and inflated here with zlib's inflate()
+ * rather than gzread(): gzread waits until its whole buffer is full, so records trickling
+ * into a pipe would sit unread; read() plus inflate() hands each line on as soon as it comes.
  * r->line is always the line number of the next unread byte. One record's bytes live in r->raw
  * and its cells in r->cells; both are reused, so memory stays flat. The formats and error rules
  * are documented in include/addsite/io.h. */
@@ -35,11 +38,18 @@ struct as_reader {
     size_t max;                 /* o.max_record as a size */
     as_format fmt;
     /* byte source */
-    gzFile gz;                  /* NULL for memory input */
+    int fd;                     /* -1 for memory input */
+    int own_fd;                 /* 0 for standard input */
+    int gz;                     /* -1 not yet known, 0 plain, 1 gzip */
+    z_stream zs;                /* gzip: the inflate state (zs_init when set up) */
+    int zs_init;
+    int member_open;            /* gzip: inside a member (its end not yet seen) */
+    int in_eof;                 /* read() returned 0 */
+    unsigned char *inbuf;       /* gzip: compressed bytes */
     const unsigned char *data;  /* current chunk */
     size_t pos, len;
-    unsigned char *chunk;       /* owned chunk buffer (gzip/file input) */
-    int src_end;                /* nothing more will come from gz */
+    unsigned char *chunk;       /* owned chunk buffer (file input) */
+    int src_end;                /* nothing more will come from the file */
     int src_err;                /* reading stopped on an error */
     char src_msg[160];
     as_io_buf rep;              /* replay buffer and read position in it */
@@ -74,37 +84,153 @@ struct as_reader {
 
 /* ==== Byte source =========================================================================== */
 
+/* read() that retries on EINTR. */
+static ssize_t read_some(int fd, void *buf, size_t n)
+{
+    for (;;) {
+        ssize_t k = read(fd, buf, n);
+        if (k >= 0 || errno != EINTR)
+            return k;
+    }
+}
+
+static void src_fail(as_reader *r, const char *fmt, const char *what)
+{
+    r->src_err = 1;
+    r->src_end = 1;
+    r->pos = r->len = 0;
+    snprintf(r->src_msg, sizeof r->src_msg, fmt, what);
+}
+
+/* First call on a file: reads the first bytes and decides between plain and gzip. */
+static void src_first(as_reader *r)
+{
+    size_t have = 0;
+    while (have < 2) {
+        ssize_t k = read_some(r->fd, r->chunk + have, IO_CHUNK - have);
+        if (k < 0) {
+            src_fail(r, "%s", strerror(errno));
+            return;
+        }
+        if (k == 0) {
+            r->in_eof = 1;
+            break;
+        }
+        have += (size_t)k;
+    }
+    if (have >= 2 && r->chunk[0] == 0x1F && r->chunk[1] == 0x8B) {
+        r->inbuf = malloc(IO_CHUNK);
+        if (!r->inbuf) {
+            r->nomem = 1;
+            src_fail(r, "%s", "out of memory");
+            return;
+        }
+        memcpy(r->inbuf, r->chunk, have);
+        memset(&r->zs, 0, sizeof r->zs);
+        if (inflateInit2(&r->zs, 15 + 16) != Z_OK) {
+            r->nomem = 1;
+            src_fail(r, "%s", "out of memory");
+            return;
+        }
+        r->zs_init = 1;
+        r->zs.next_in = r->inbuf;
+        r->zs.avail_in = (uInt)have;
+        r->member_open = 1;
+        r->gz = 1;
+        return;
+    }
+    r->gz = 0;
+    r->data = r->chunk;
+    r->pos = 0;
+    r->len = have;
+    if (have == 0)
+        r->src_end = 1;
+}
+
+/* Gzip: inflates until some bytes come out, more input is needed and none is left, or an error.
+ * Several members one after another are read as one stream (as gzip(1) does); bytes after
+ * the last member that do not start another one are ignored, as zlib's own reader does. */
+static void src_inflate(as_reader *r)
+{
+    for (;;) {
+        if (r->zs.avail_in == 0 && !r->in_eof) {
+            ssize_t k = read_some(r->fd, r->inbuf, IO_CHUNK);
+            if (k < 0) {
+                src_fail(r, "%s", strerror(errno));
+                return;
+            }
+            if (k == 0)
+                r->in_eof = 1;
+            r->zs.next_in = r->inbuf;
+            r->zs.avail_in = (uInt)k;
+        }
+        if (r->zs.avail_in == 0 && r->in_eof) {
+            if (r->member_open)
+                src_fail(r, "%s", "the gzip data ends early (truncated file)");
+            else
+                r->src_end = 1;
+            return;
+        }
+        if (!r->member_open) {
+            if (r->zs.next_in[0] != 0x1F) {
+                r->src_end = 1; /* trailing bytes that are not another member */
+                return;
+            }
+            if (inflateReset(&r->zs) != Z_OK) {
+                src_fail(r, "%s", "the gzip data could not be restarted");
+                return;
+            }
+            r->member_open = 1;
+        }
+        r->zs.next_out = r->chunk;
+        r->zs.avail_out = IO_CHUNK;
+        int ret = inflate(&r->zs, Z_NO_FLUSH);
+        size_t out = IO_CHUNK - r->zs.avail_out;
+        if (ret == Z_STREAM_END) {
+            r->member_open = 0;
+        } else if (ret == Z_MEM_ERROR) {
+            r->nomem = 1;
+            src_fail(r, "%s", "out of memory");
+            return;
+        } else if (ret != Z_OK && ret != Z_BUF_ERROR) {
+            src_fail(r, "the gzip data is corrupt (%s)", r->zs.msg ? r->zs.msg : "zlib error");
+            return;
+        }
+        if (out > 0) {
+            r->data = r->chunk;
+            r->pos = 0;
+            r->len = out;
+            return;
+        }
+    }
+}
+
 static void src_refill(as_reader *r)
 {
     if (r->src_end)
         return;
-    if (!r->gz) {
+    if (r->fd < 0) {
         r->src_end = 1;
         return;
     }
-    errno = 0;
-    int n = gzread(r->gz, r->chunk, IO_CHUNK);
-    int saved = errno;
-    if (n > 0) {
-        r->data = r->chunk;
-        r->pos = 0;
-        r->len = (size_t)n;
+    if (r->gz < 0) {
+        src_first(r);
         return;
     }
-    int code = Z_OK;
-    const char *msg = gzerror(r->gz, &code);
-    r->src_end = 1;
-    r->pos = r->len = 0;
-    if (n < 0 || (code != Z_OK && code != Z_STREAM_END)) {
-        r->src_err = 1;
-        if (code == Z_ERRNO) {
-            snprintf(r->src_msg, sizeof r->src_msg, "%s", strerror(saved ? saved : EIO));
-        } else {
-            /* zlib prefixes "<fd:N>: "; the path is not useful to the reader of the record. */
-            const char *colon = (msg && msg[0] == '<') ? strstr(msg, ": ") : NULL;
-            snprintf(r->src_msg, sizeof r->src_msg, "%s", colon ? colon + 2 : (msg ? msg : "?"));
-        }
+    if (r->gz) {
+        src_inflate(r);
+        return;
     }
+    ssize_t k = read_some(r->fd, r->chunk, IO_CHUNK);
+    if (k < 0) {
+        src_fail(r, "%s", strerror(errno));
+        return;
+    }
+    r->data = r->chunk;
+    r->pos = 0;
+    r->len = (size_t)k;
+    if (k == 0)
+        r->src_end = 1;
 }
 
 /* Points *p at the next unread bytes and returns how many; 0 at the end of the input. */
@@ -346,7 +472,7 @@ static void io_error_record(as_reader *r, as_record *rec, long line0)
     rec->raw = r->raw.p ? r->raw.p : "";
     rec->raw_len = r->raw.len;
     rec_error(rec, AS_ERR_IO, r->raw.len,
-              "the input could not be read past this point (%s); no further records",
+              "the input could not be read past this point: %s; no further records",
               r->src_msg);
     r->done = 1;
 }
@@ -1261,6 +1387,8 @@ static as_status reader_alloc(const as_reader_opts *opts, as_reader **out, as_er
     r->o = o;
     r->max = (size_t)o.max_record;
     r->line = 1;
+    r->fd = -1;
+    r->gz = -1;
     for (int k = 0; k < AS_IO_ROLE_COUNT; k++)
         r->col[k] = -1;
     *out = r;
@@ -1395,27 +1523,20 @@ as_status as_reader_open(const char *path, const as_reader_opts *opts, as_reader
     if (st != AS_OK)
         return st;
     int is_stdin = strcmp(path, "-") == 0;
-    int fd = is_stdin ? dup(STDIN_FILENO) : open(path, O_RDONLY | O_CLOEXEC);
+    int fd = is_stdin ? STDIN_FILENO : open(path, O_RDONLY | O_CLOEXEC);
     if (fd < 0) {
         int e = errno;
         as_reader_close(r);
-        return as_error_set(err, AS_ERR_IO, -1, -1, "cannot open %.160s: %s",
-                            is_stdin ? "standard input" : path, strerror(e));
+        return as_error_set(err, AS_ERR_IO, -1, -1, "cannot open %.160s: %s", path, strerror(e));
     }
+    r->fd = fd;
+    r->own_fd = !is_stdin;
     struct stat sb;
     if (fstat(fd, &sb) == 0 && S_ISDIR(sb.st_mode)) {
-        close(fd);
         as_reader_close(r);
         return as_error_set(err, AS_ERR_IO, -1, -1, "cannot read %.160s: it is a directory",
-                            path);
+                            is_stdin ? "standard input" : path);
     }
-    r->gz = gzdopen(fd, "rb");
-    if (!r->gz) {
-        close(fd);
-        as_reader_close(r);
-        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory opening %.160s", path);
-    }
-    gzbuffer(r->gz, IO_CHUNK);
     r->chunk = malloc(IO_CHUNK);
     if (!r->chunk) {
         as_reader_close(r);
@@ -1487,8 +1608,11 @@ void as_reader_close(as_reader *r)
     if (!r)
         return;
     json_release(r);
-    if (r->gz)
-        gzclose(r->gz);
+    if (r->zs_init)
+        inflateEnd(&r->zs);
+    if (r->own_fd && r->fd >= 0)
+        close(r->fd);
+    free(r->inbuf);
     free(r->chunk);
     as_io_buf_free(&r->rep);
     as_io_buf_free(&r->raw);

@@ -748,6 +748,80 @@ static void io_should_read_standard_input(void **state)
     rm_dir(dir);
 }
 
+static void on_alarm(int sig)
+{
+    (void)sig;
+    static const char msg[] = "io test: a piped record was held back waiting for more input\n";
+    if (write(STDERR_FILENO, msg, sizeof msg - 1) < 0)
+        _exit(3);
+    _exit(2);
+}
+
+static void io_should_hand_on_piped_records_without_waiting_for_more(void **state)
+{
+    (void)state;
+    int fds[2];
+    assert_int_equal(pipe(fds), 0);
+    int saved = dup(STDIN_FILENO);
+    assert_true(saved >= 0);
+    assert_int_equal(dup2(fds[0], STDIN_FILENO), STDIN_FILENO);
+    close(fds[0]);
+    const char *first = "C=Cc1ccccc1 styrene\n";
+    assert_int_equal(write(fds[1], first, strlen(first)), (ssize_t)strlen(first));
+    /* The writer stays open: the reader must not wait for EOF or a full buffer. */
+    void (*prev)(int) = signal(SIGALRM, on_alarm);
+    alarm(10);
+    as_reader *r;
+    as_error err;
+    as_record rec;
+    assert_int_equal(as_reader_open("-", NULL, &r, &err), AS_OK);
+    assert_int_equal(as_reader_next(r, &rec, &err), AS_OK);
+    assert_false(rec.at_end);
+    assert_string_equal(rec.substrate, "C=Cc1ccccc1");
+    const char *second = "CC(C)=C isobutene\n";
+    assert_int_equal(write(fds[1], second, strlen(second)), (ssize_t)strlen(second));
+    assert_int_equal(as_reader_next(r, &rec, &err), AS_OK);
+    assert_string_equal(rec.id, "isobutene");
+    close(fds[1]);
+    assert_int_equal(as_reader_next(r, &rec, &err), AS_OK);
+    assert_true(rec.at_end);
+    alarm(0);
+    signal(SIGALRM, prev);
+    as_reader_close(r);
+    assert_int_equal(dup2(saved, STDIN_FILENO), STDIN_FILENO);
+    close(saved);
+}
+
+static void io_should_read_concatenated_gzip_members(void **state)
+{
+    (void)state;
+    char dir[PATH_MAX], p[PATH_MAX + 32];
+    make_dir(dir, sizeof dir);
+    snprintf(p, sizeof p, "%s/two.smi.gz", dir);
+    /* Two members, as `cat a.gz b.gz` gives, then bytes that are not a third member. */
+    gzip_file(p, "C=C first\n", 10);
+    size_t l1;
+    char *m1 = slurp(p, &l1);
+    gzip_file(p, "CC=C second\nCCC=C third", 23);
+    size_t l2;
+    char *m2 = slurp(p, &l2);
+    FILE *f = fopen(p, "wb");
+    assert_non_null(f);
+    fwrite(m1, 1, l1, f);
+    fwrite(m2, 1, l2, f);
+    fwrite("\0\0\0\0", 1, 4, f);
+    fclose(f);
+    int n = read_path(p, NULL, S, 8);
+    assert_int_equal(n, 3);
+    assert_string_equal(S[0].id, "first");
+    assert_string_equal(S[1].id, "second");
+    assert_string_equal(S[2].id, "third");
+    assert_int_equal(S[2].code, AS_OK);
+    free(m1);
+    free(m2);
+    rm_dir(dir);
+}
+
 /* ==== Files, gzip, detection ================================================================ */
 
 static void io_should_read_gzip_input_transparently(void **state)
@@ -813,6 +887,7 @@ static void io_should_end_truncated_gzip_with_an_error_record(void **state)
     as_record rec;
     long good = 0, errors = 0, last_line = 0;
     as_status last_code = AS_OK;
+    char last_msg[256] = "";
     for (;;) {
         assert_int_equal(as_reader_next(r, &rec, &err), AS_OK);
         if (rec.at_end)
@@ -823,12 +898,14 @@ static void io_should_end_truncated_gzip_with_an_error_record(void **state)
             errors++;
             last_code = rec.err.code;
             last_line = rec.err.line;
+            snprintf(last_msg, sizeof last_msg, "%s", rec.err.msg);
         }
     }
     assert_true(good > 1000 && good < 20000);
     assert_int_equal(errors, 1);
     assert_int_equal(last_code, AS_ERR_IO);
     assert_int_equal(last_line, good + 1);
+    assert_non_null(strstr(last_msg, "truncated"));
     assert_int_equal(as_reader_next(r, &rec, &err), AS_OK);
     assert_true(rec.at_end);
     as_reader_close(r);
@@ -1350,6 +1427,8 @@ int main(void)
         cmocka_unit_test(io_should_accept_records_of_exactly_the_limit),
         cmocka_unit_test(io_should_pass_over_blank_lines_before_a_header),
         cmocka_unit_test(io_should_read_standard_input),
+        cmocka_unit_test(io_should_hand_on_piped_records_without_waiting_for_more),
+        cmocka_unit_test(io_should_read_concatenated_gzip_members),
         cmocka_unit_test(io_should_read_gzip_input_transparently),
         cmocka_unit_test(io_should_end_truncated_gzip_with_an_error_record),
         cmocka_unit_test(io_should_detect_the_format_from_name_and_first_line),

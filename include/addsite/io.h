@@ -70,8 +70,10 @@
  * A malformed CSV record that spans lines never swallows what follows: the error record covers
  * the line where it started (raw = that line) and reading resumes on the next line. The same
  * happens when a quoted field reaches max_record bytes across lines.
- * Input named "-" is standard input. Gzip input (files or stdin) is decompressed on the fly;
- * other input passes through unchanged. Memory stays bounded by about 3 x max_record plus
+ * Input named "-" is standard input. Gzip input (files or stdin, recognised by its magic bytes,
+ * several members read as one) is decompressed on the fly; other input passes through
+ * unchanged. Each record is handed on as soon as its line has arrived, so a reader on a pipe
+ * never waits for a full buffer. Memory stays bounded by about 3 x max_record plus
  * 256 KiB of buffers (record, cells, replay; chunk and zlib windows), however long the input:
  * one million CSV records (71 MB, plain or gzip) were read and rewritten in about 2 MB of
  * resident memory.
