@@ -1,0 +1,1164 @@
+/* canon.c — canonical atom ranking and the SMILES writer.
+ * Owns: CANON/CANGEN-style ranking (Weininger, Weininger & Weininger, J. Chem. Inf. Comput.
+ * Sci. 1989, 29, 97: invariant classes refined by neighbour ranks, ties broken one atom at a
+ * time), which stereo marks are real, and writing SMILES with @/@@ and / \.
+ * Must not: depend on the rule table.
+ *
+ * Symmetric molecules with stereo: after refinement, atoms in one class may still differ by
+ * configuration (meso forms). Breaking the tie one way or the other then yields mirror-image
+ * strings, so when the molecule has stereo marks every tie-break choice is explored and the
+ * lexicographically smallest string is kept (bounded by MAX_LEAVES; past that the first
+ * choices are taken, which stays deterministic but may depend on input order). */
+#include "addsite/canon.h"
+#include "addsite/perceive.h"
+#include "addsite/smiles.h"
+#include "status_int.h"
+
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define MAX_LEAVES 256
+
+/* ---------------------------------------------------------------- growable string */
+
+typedef struct sbuf {
+    char *s;
+    size_t n, cap;
+    int oom;
+} sbuf;
+
+static void sb_putn(sbuf *b, const char *t, size_t n)
+{
+    if (b->oom)
+        return;
+    if (b->n + n + 1 > b->cap) {
+        size_t c = b->cap ? b->cap * 2 : 128;
+        while (c < b->n + n + 1)
+            c *= 2;
+        char *p = realloc(b->s, c);
+        if (!p) {
+            b->oom = 1;
+            return;
+        }
+        b->s = p;
+        b->cap = c;
+    }
+    memcpy(b->s + b->n, t, n);
+    b->n += n;
+    b->s[b->n] = '\0';
+}
+
+static void sb_puts(sbuf *b, const char *t)
+{
+    sb_putn(b, t, strlen(t));
+}
+
+static void sb_putc(sbuf *b, char c)
+{
+    sb_putn(b, &c, 1);
+}
+
+static void sb_int(sbuf *b, long v)
+{
+    char t[24];
+    int n = snprintf(t, sizeof t, "%ld", v);
+    sb_putn(b, t, (size_t)n);
+}
+
+/* ---------------------------------------------------------------- ranking */
+
+typedef struct canon_ctx {
+    const as_mol *m;
+    const as_canon_opts *o;
+    int n;
+    int *cls;          /* constitutional classes (refined, no tie breaking) */
+    char *real_tetra;  /* per tetra record */
+    char *real_db;     /* per dbs record */
+    int has_stereo;
+    /* refinement scratch */
+    int *order;
+    int *tmp;
+    int *nkey;         /* per atom, degree sorted neighbour codes */
+    int *newrank;
+    /* best string so far */
+    char *best;
+    size_t best_len;
+    int leaves;
+    as_status st;
+} canon_ctx;
+
+static int bond_code(const as_bond *b)
+{
+    return b->aromatic ? 4 : b->order;
+}
+
+/* Compares atoms x, y by (rank, sorted neighbour codes). */
+static int key_cmp(const canon_ctx *c, const int *rank, int x, int y)
+{
+    if (rank[x] != rank[y])
+        return rank[x] < rank[y] ? -1 : 1;
+    int dx = c->m->atoms[x].degree, dy = c->m->atoms[y].degree;
+    if (dx != dy)
+        return dx < dy ? -1 : 1;
+    const int *kx = c->nkey + (size_t)x * AS_MAX_DEGREE, *ky = c->nkey + (size_t)y * AS_MAX_DEGREE;
+    for (int i = 0; i < dx; i++)
+        if (kx[i] != ky[i])
+            return kx[i] < ky[i] ? -1 : 1;
+    return 0;
+}
+
+/* Stable merge sort of c->order[0..n) by key_cmp. */
+static void sort_atoms(canon_ctx *c, const int *rank)
+{
+    int n = c->n;
+    int *a = c->order, *t = c->tmp;
+    for (int w = 1; w < n; w *= 2) {
+        for (int lo = 0; lo < n; lo += 2 * w) {
+            int mid = lo + w < n ? lo + w : n, hi = lo + 2 * w < n ? lo + 2 * w : n;
+            int i = lo, j = mid, k = lo;
+            while (i < mid && j < hi)
+                t[k++] = key_cmp(c, rank, a[j], a[i]) < 0 ? a[j++] : a[i++];
+            while (i < mid)
+                t[k++] = a[i++];
+            while (j < hi)
+                t[k++] = a[j++];
+        }
+        memcpy(a, t, (size_t)n * sizeof(int));
+    }
+}
+
+static void insertion_sort_ints(int *v, int n)
+{
+    for (int i = 1; i < n; i++) {
+        int x = v[i], j = i - 1;
+        while (j >= 0 && v[j] > x) {
+            v[j + 1] = v[j];
+            j--;
+        }
+        v[j + 1] = x;
+    }
+}
+
+/* Refines rank[] (rank = number of atoms with a smaller key) until stable. */
+static void refine(canon_ctx *c, int *rank)
+{
+    const as_mol *m = c->m;
+    int n = c->n;
+    int classes = -1;
+    for (;;) {
+        for (int i = 0; i < n; i++) {
+            const as_atom *a = &m->atoms[i];
+            int *k = c->nkey + (size_t)i * AS_MAX_DEGREE;
+            for (int j = 0; j < a->degree; j++)
+                k[j] = rank[a->nbr[j]] * 8 + bond_code(&m->bonds[a->nbond[j]]);
+            insertion_sort_ints(k, a->degree);
+        }
+        for (int i = 0; i < n; i++)
+            c->order[i] = i;
+        sort_atoms(c, rank);
+        int nclass = 0;
+        for (int i = 0; i < n; i++) {
+            int x = c->order[i];
+            if (i == 0 || key_cmp(c, rank, c->order[i - 1], x) != 0) {
+                nclass++;
+                c->newrank[x] = i;
+            } else {
+                c->newrank[x] = c->newrank[c->order[i - 1]];
+            }
+        }
+        memcpy(rank, c->newrank, (size_t)n * sizeof(int));
+        if (nclass == classes || nclass == n)
+            break;
+        classes = nclass;
+    }
+}
+
+/* Initial invariants → ranks. */
+static void initial_ranks(canon_ctx *c, int *rank)
+{
+    const as_mol *m = c->m;
+    int n = c->n;
+    /* pack the invariant into two 64-bit words */
+    uint64_t *inv = malloc((size_t)n * 2 * sizeof(uint64_t));
+    if (!inv) {
+        c->st = AS_ERR_NOMEM;
+        return;
+    }
+    for (int i = 0; i < n; i++) {
+        const as_atom *a = &m->atoms[i];
+        uint64_t hi = 0, lo = 0;
+        hi |= (uint64_t)(a->degree & 0xff) << 56;
+        hi |= (uint64_t)(a->elem & 0xff) << 48;
+        hi |= (uint64_t)((a->isotope + 1) & 0xffff) << 32;
+        hi |= (uint64_t)((a->charge + 64) & 0xff) << 24;
+        hi |= (uint64_t)(a->total_h & 0xff) << 16;
+        hi |= (uint64_t)(a->aromatic & 1) << 8;
+        hi |= (uint64_t)(a->ring_size ? 1 : 0);
+        lo = c->o->atom_maps ? (uint64_t)(unsigned)a->mapnum : 0;
+        inv[2 * i] = hi;
+        inv[2 * i + 1] = lo;
+    }
+    /* rank = number of atoms with a smaller invariant; simple sort of indices */
+    for (int i = 0; i < n; i++)
+        c->order[i] = i;
+    /* insertion sort by invariant is too slow for big molecules: merge sort */
+    int *a = c->order, *t = c->tmp;
+    for (int w = 1; w < n; w *= 2) {
+        for (int lo2 = 0; lo2 < n; lo2 += 2 * w) {
+            int mid = lo2 + w < n ? lo2 + w : n, hi2 = lo2 + 2 * w < n ? lo2 + 2 * w : n;
+            int i = lo2, j = mid, k = lo2;
+            while (i < mid && j < hi2) {
+                int x = a[i], y = a[j];
+                int ylt = inv[2 * y] < inv[2 * x] ||
+                          (inv[2 * y] == inv[2 * x] && inv[2 * y + 1] < inv[2 * x + 1]);
+                t[k++] = ylt ? a[j++] : a[i++];
+            }
+            while (i < mid)
+                t[k++] = a[i++];
+            while (j < hi2)
+                t[k++] = a[j++];
+        }
+        memcpy(a, t, (size_t)n * sizeof(int));
+    }
+    for (int i = 0; i < n; i++) {
+        int x = a[i];
+        if (i > 0 && inv[2 * a[i - 1]] == inv[2 * x] && inv[2 * a[i - 1] + 1] == inv[2 * x + 1])
+            rank[x] = rank[a[i - 1]];
+        else
+            rank[x] = i;
+    }
+    free(inv);
+}
+
+/* ---------------------------------------------------------------- real stereo elements */
+
+/* 1 when atoms a and b lie on one common SSSR ring. */
+static int share_ring(const as_mol *m, int a, int b)
+{
+    for (int r = 0; r < m->nrings; r++) {
+        int fa = 0, fb = 0;
+        for (int k = m->ring_start[r]; k < m->ring_start[r + 1]; k++) {
+            fa |= m->ring_atoms[k] == a;
+            fb |= m->ring_atoms[k] == b;
+        }
+        if (fa && fb)
+            return 1;
+    }
+    return 0;
+}
+
+static void find_real_stereo(canon_ctx *c)
+{
+    const as_mol *m = c->m;
+    /* pass 1: centres whose four neighbours are all different */
+    char *cand_ring = calloc((size_t)(m->ntetra ? m->ntetra : 1), 1);
+    if (!cand_ring) {
+        c->st = AS_ERR_NOMEM;
+        return;
+    }
+    for (int i = 0; i < m->ntetra; i++) {
+        const as_tetra *t = &m->tetra[i];
+        int cl[4];
+        for (int k = 0; k < 4; k++)
+            cl[k] = t->nbr[k] == AS_IMPLICIT_H ? -1 : c->cls[t->nbr[k]];
+        int dup = 0, dup_ring = 1;
+        for (int x = 0; x < 4; x++)
+            for (int y = x + 1; y < 4; y++)
+                if (cl[x] == cl[y]) {
+                    dup++;
+                    /* ring stereo (cis/trans-1,4-disubstituted rings): the two equal
+                     * neighbours are ring atoms on a common ring with the centre */
+                    if (t->nbr[x] < 0 || t->nbr[y] < 0 || !share_ring(m, t->center, t->nbr[x]) ||
+                        !share_ring(m, t->center, t->nbr[y]))
+                        dup_ring = 0;
+                }
+        if (!dup)
+            c->real_tetra[i] = 1;
+        else if (dup == 1 && dup_ring)
+            cand_ring[i] = 1;
+    }
+    /* pass 2: ring-stereo candidates need a second stereo centre on a shared ring system */
+    for (int i = 0; i < m->ntetra; i++) {
+        if (!cand_ring[i])
+            continue;
+        for (int j = 0; j < m->ntetra; j++) {
+            if (j == i || !(cand_ring[j] || c->real_tetra[j]))
+                continue;
+            /* same ring system: a path through ring atoms; approximate by a shared ring or
+             * rings sharing atoms */
+            int ci = m->tetra[i].center, cj = m->tetra[j].center;
+            int found = 0;
+            for (int r = 0; r < m->nrings && !found; r++) {
+                int fi = 0, fj = 0;
+                for (int k = m->ring_start[r]; k < m->ring_start[r + 1]; k++) {
+                    fi |= m->ring_atoms[k] == ci;
+                    fj |= m->ring_atoms[k] == cj;
+                }
+                found = fi && fj;
+            }
+            if (found) {
+                c->real_tetra[i] = 1;
+                break;
+            }
+        }
+    }
+    free(cand_ring);
+    for (int i = 0; i < m->ndbs; i++) {
+        const as_bond *b = &m->bonds[m->dbs[i].bond];
+        int ok = 1;
+        for (int e = 0; e < 2 && ok; e++) {
+            int u = e ? b->b : b->a, v = e ? b->a : b->b;
+            const as_atom *a = &m->atoms[u];
+            int others[AS_MAX_DEGREE], no = 0;
+            for (int k = 0; k < a->degree; k++)
+                if (a->nbr[k] != v)
+                    others[no++] = a->nbr[k];
+            if (no == 0 || no + a->total_h > 2)
+                ok = 0;
+            else if (no == 2 && c->cls[others[0]] == c->cls[others[1]])
+                ok = 0;
+        }
+        c->real_db[i] = (char)ok;
+    }
+    for (int i = 0; i < m->ntetra; i++)
+        c->has_stereo |= c->real_tetra[i];
+    for (int i = 0; i < m->ndbs; i++)
+        c->has_stereo |= c->real_db[i];
+}
+
+/* ---------------------------------------------------------------- writer */
+
+typedef struct ringbond {
+    int opener, closer, bond;
+    int digit;
+} ringbond;
+
+typedef struct writer {
+    canon_ctx *c;
+    const int *rank;
+    int *visited;    /* visit index, -1 unvisited */
+    int *parent;
+    int *seq;        /* atoms in visit order */
+    int nseq;
+    ringbond *rb;
+    int nrb;
+    int *child_start, *children; /* tree children per atom, in visit order */
+    signed char *dir; /* per bond: 0 none, +1 '/', -1 '\\' in written direction */
+    int *written_first; /* per bond: the atom written first */
+} writer;
+
+/* Neighbours of a sorted by rank. */
+static void sorted_nbrs(const writer *w, int a, int *out, int *n)
+{
+    const as_atom *at = &w->c->m->atoms[a];
+    *n = at->degree;
+    for (int i = 0; i < at->degree; i++)
+        out[i] = at->nbr[i];
+    for (int i = 1; i < *n; i++) {
+        int x = out[i], j = i - 1;
+        while (j >= 0 && w->rank[out[j]] > w->rank[x]) {
+            out[j + 1] = out[j];
+            j--;
+        }
+        out[j + 1] = x;
+    }
+}
+
+/* Pass 1: DFS from each component's lowest-ranked atom; tree edges and ring bonds. */
+static int build_tree(writer *w)
+{
+    const as_mol *m = w->c->m;
+    int n = w->c->n;
+    int *stack = malloc((size_t)(n ? n : 1) * sizeof(int));
+    int *it = malloc((size_t)(n ? n : 1) * sizeof(int));
+    int *nb = malloc((size_t)(n ? n : 1) * AS_MAX_DEGREE * sizeof(int));
+    int *nchild = calloc((size_t)(n ? n : 1), sizeof(int));
+    if (!stack || !it || !nb || !nchild)
+        goto oom;
+    int *byrank = malloc((size_t)(n ? n : 1) * sizeof(int));
+    if (!byrank)
+        goto oom;
+    for (int i = 0; i < n; i++)
+        byrank[w->rank[i]] = i;
+    for (int i = 0; i < n; i++) {
+        w->visited[i] = -1;
+        w->parent[i] = -1;
+    }
+    int nvis = 0;
+    for (int r = 0; r < n; r++) {
+        int s = byrank[r];
+        if (w->visited[s] >= 0)
+            continue;
+        int top = 0;
+        stack[top++] = s;
+        w->visited[s] = nvis++;
+        w->seq[w->nseq++] = s;
+        it[s] = 0;
+        int d;
+        sorted_nbrs(w, s, nb + (size_t)s * AS_MAX_DEGREE, &d);
+        while (top) {
+            int u = stack[top - 1];
+            const int *un = nb + (size_t)u * AS_MAX_DEGREE;
+            if (it[u] >= m->atoms[u].degree) {
+                top--;
+                continue;
+            }
+            int v = un[it[u]++];
+            if (v == w->parent[u])
+                continue;
+            if (w->visited[v] < 0) {
+                w->visited[v] = nvis++;
+                w->seq[w->nseq++] = v;
+                w->parent[v] = u;
+                nchild[u]++;
+                it[v] = 0;
+                sorted_nbrs(w, v, nb + (size_t)v * AS_MAX_DEGREE, &d);
+                stack[top++] = v;
+            } else if (w->visited[v] < w->visited[u]) {
+                /* back edge to an ancestor: a ring bond, opened at v, closed at u */
+                int b = as_mol_bond_between(m, u, v);
+                w->rb[w->nrb].opener = v;
+                w->rb[w->nrb].closer = u;
+                w->rb[w->nrb].bond = b;
+                w->rb[w->nrb].digit = -1;
+                w->nrb++;
+            }
+        }
+    }
+    /* children lists in visit order */
+    w->child_start[0] = 0;
+    for (int i = 0; i < n; i++)
+        w->child_start[i + 1] = w->child_start[i] + nchild[i];
+    memset(nchild, 0, (size_t)n * sizeof(int));
+    for (int k = 0; k < w->nseq; k++) {
+        int v = w->seq[k], p = w->parent[v];
+        if (p >= 0)
+            w->children[w->child_start[p] + nchild[p]++] = v;
+    }
+    free(byrank);
+    free(stack);
+    free(it);
+    free(nb);
+    free(nchild);
+    return 0;
+oom:
+    free(stack);
+    free(it);
+    free(nb);
+    free(nchild);
+    return -1;
+}
+
+/* Ring bonds at atom a in the order their digits are written: closures first (by the
+ * opener's visit order), then openings (by the closer's visit order). */
+static int ring_bonds_at(const writer *w, int a, int *out)
+{
+    int n = 0;
+    for (int pass = 0; pass < 2; pass++) {
+        int start = n;
+        for (int i = 0; i < w->nrb; i++) {
+            const ringbond *r = &w->rb[i];
+            if ((pass == 0 && r->closer == a) || (pass == 1 && r->opener == a))
+                out[n++] = i;
+        }
+        for (int i = start + 1; i < n; i++) {
+            int x = out[i], j = i - 1;
+            int kx = pass == 0 ? w->visited[w->rb[x].opener] : w->visited[w->rb[x].closer];
+            while (j >= start) {
+                int kj = pass == 0 ? w->visited[w->rb[out[j]].opener]
+                                   : w->visited[w->rb[out[j]].closer];
+                if (kj <= kx)
+                    break;
+                out[j + 1] = out[j];
+                j--;
+            }
+            out[j + 1] = x;
+        }
+    }
+    return n;
+}
+
+/* Neighbour order of atom a as written: parent, H/lone pair, ring partners, children. */
+static int written_nbrs(const writer *w, int a, int *out, int with_h)
+{
+    int n = 0;
+    if (w->parent[a] >= 0)
+        out[n++] = w->parent[a];
+    if (with_h)
+        out[n++] = AS_IMPLICIT_H;
+    int rbs[AS_MAX_DEGREE];
+    int nr = ring_bonds_at(w, a, rbs);
+    for (int i = 0; i < nr; i++) {
+        const ringbond *r = &w->rb[rbs[i]];
+        out[n++] = r->opener == a ? r->closer : r->opener;
+    }
+    for (int k = w->child_start[a]; k < w->child_start[a + 1]; k++)
+        out[n++] = w->children[k];
+    return n;
+}
+
+/* 1 when the permutation taking p to q (same 4 items) is odd. */
+static int odd_perm(const int *p, const int *q)
+{
+    int idx[4];
+    for (int i = 0; i < 4; i++) {
+        idx[i] = -1;
+        for (int j = 0; j < 4; j++)
+            if (q[j] == p[i])
+                idx[i] = j;
+        if (idx[i] < 0)
+            return -1;
+    }
+    int par = 0;
+    for (int i = 0; i < 4; i++)
+        for (int j = i + 1; j < 4; j++)
+            if (idx[i] > idx[j])
+                par ^= 1;
+    return par;
+}
+
+/* Chirality to write at atom a: 0, AS_CCW or AS_CW. */
+static int written_chirality(const writer *w, int a)
+{
+    const canon_ctx *c = w->c;
+    const as_mol *m = c->m;
+    if (!c->o->stereo)
+        return 0;
+    int ti = as_mol_find_tetra(m, a);
+    if (ti < 0 || !c->real_tetra[ti])
+        return 0;
+    const as_tetra *t = &m->tetra[ti];
+    int has_h = 0;
+    for (int k = 0; k < 4; k++)
+        has_h |= t->nbr[k] == AS_IMPLICIT_H;
+    int out[AS_MAX_DEGREE + 1];
+    int n = written_nbrs(w, a, out, has_h);
+    if (n != 4)
+        return 0;
+    int odd = odd_perm(t->nbr, out);
+    if (odd < 0)
+        return 0;
+    return odd ? (t->parity == AS_CCW ? AS_CW : AS_CCW) : t->parity;
+}
+
+/* ---------------------------------------------------------------- double-bond marks */
+
+/* Assigns '/' '\' to single bonds next to real stereo double bonds, by propagation. Each
+ * marked bond's value is the side of its second-written atom relative to its first. */
+static void assign_dirs(writer *w)
+{
+    const canon_ctx *c = w->c;
+    const as_mol *m = c->m;
+    if (!c->o->stereo)
+        return;
+    for (int b = 0; b < m->nbonds; b++) {
+        const as_bond *bd = &m->bonds[b];
+        w->written_first[b] = w->visited[bd->a] < w->visited[bd->b] ? bd->a : bd->b;
+    }
+    /* process stereo double bonds in order of their first atom's visit index */
+    int nd = m->ndbs;
+    int *ord = malloc((size_t)(nd ? nd : 1) * sizeof(int));
+    if (!ord)
+        return;
+    int no = 0;
+    for (int i = 0; i < nd; i++)
+        if (c->real_db[i])
+            ord[no++] = i;
+    for (int i = 1; i < no; i++) {
+        int x = ord[i], j = i - 1;
+        int kx = w->visited[w->written_first[m->dbs[x].bond]];
+        while (j >= 0 && w->visited[w->written_first[m->dbs[ord[j]].bond]] > kx) {
+            ord[j + 1] = ord[j];
+            j--;
+        }
+        ord[j + 1] = x;
+    }
+    /* Repeat until no change so that a later double bond can anchor an earlier one. */
+    for (int round = 0; round < 2; round++) {
+        for (int oi = 0; oi < no; oi++) {
+            const as_dbstereo *d = &m->dbs[ord[oi]];
+            const as_bond *bd = &m->bonds[d->bond];
+            int ends[2] = {bd->a, bd->b};
+            int refs[2] = {d->ref_a, d->ref_b};
+            /* side of each end's neighbours, +1/-1 relative to that end; 0 unknown */
+            int anchor_side[2] = {0, 0};
+            int anchor_nbr[2] = {-1, -1};
+            for (int e = 0; e < 2; e++) {
+                const as_atom *u = &m->atoms[ends[e]];
+                for (int k = 0; k < u->degree && !anchor_side[e]; k++) {
+                    int y = u->nbr[k], bk = u->nbond[k];
+                    if (bk == d->bond || !w->dir[bk])
+                        continue;
+                    int s = w->dir[bk];
+                    /* value is side(second rel first) */
+                    int side = w->written_first[bk] == ends[e] ? s : -s;
+                    anchor_side[e] = side;
+                    anchor_nbr[e] = y;
+                }
+            }
+            /* express both anchors as the side of the record's reference atoms */
+            int ref_side[2] = {0, 0};
+            for (int e = 0; e < 2; e++) {
+                if (!anchor_side[e])
+                    continue;
+                ref_side[e] = anchor_nbr[e] == refs[e] ? anchor_side[e] : -anchor_side[e];
+            }
+            if (!ref_side[0] && !ref_side[1]) {
+                if (round == 1)
+                    continue;
+                /* first mark written at the earlier end is '/' */
+                int e = w->visited[ends[0]] < w->visited[ends[1]] ? 0 : 1;
+                const as_atom *u = &m->atoms[ends[e]];
+                int firstn = -1, fb = -1, best = 1 << 30;
+                for (int k = 0; k < u->degree; k++) {
+                    int bk = u->nbond[k];
+                    if (bk == d->bond)
+                        continue;
+                    if (w->visited[u->nbr[k]] < best) {
+                        best = w->visited[u->nbr[k]];
+                        firstn = u->nbr[k];
+                        fb = bk;
+                    }
+                }
+                if (fb < 0)
+                    continue;
+                /* dir +1 on fb: side(second rel first) = +1 */
+                int side_first = w->written_first[fb] == ends[e] ? 1 : -1;
+                ref_side[e] = firstn == refs[e] ? side_first : -side_first;
+            }
+            if (!ref_side[0])
+                ref_side[0] = d->cis ? ref_side[1] : -ref_side[1];
+            if (!ref_side[1])
+                ref_side[1] = d->cis ? ref_side[0] : -ref_side[0];
+            /* write all single bonds at both ends */
+            for (int e = 0; e < 2; e++) {
+                const as_atom *u = &m->atoms[ends[e]];
+                for (int k = 0; k < u->degree; k++) {
+                    int bk = u->nbond[k];
+                    if (bk == d->bond || m->bonds[bk].order != AS_BOND_SINGLE ||
+                        m->bonds[bk].aromatic)
+                        continue;
+                    int side = u->nbr[k] == refs[e] ? ref_side[e] : -ref_side[e];
+                    int val = w->written_first[bk] == ends[e] ? side : -side;
+                    if (!w->dir[bk])
+                        w->dir[bk] = (signed char)val;
+                }
+            }
+        }
+    }
+    free(ord);
+}
+
+/* ---------------------------------------------------------------- atom text */
+
+static int organic_subset(int elem)
+{
+    return elem == 5 || elem == 6 || elem == 7 || elem == 8 || elem == 15 || elem == 16 ||
+           elem == 9 || elem == 17 || elem == 35 || elem == 53;
+}
+
+/* Hydrogens a reader would give this atom if written without brackets. */
+static int implied_h(const as_mol *m, int a, int aromatic_out)
+{
+    const as_atom *at = &m->atoms[a];
+    int sum = 0;
+    for (int k = 0; k < at->degree; k++) {
+        const as_bond *b = &m->bonds[at->nbond[k]];
+        sum += (aromatic_out && b->aromatic) ? 1 : b->order;
+    }
+    int v = as_default_valence(at->elem, sum);
+    if (v < 0)
+        return 0;
+    int h = v - sum - (aromatic_out && at->aromatic ? 1 : 0);
+    return h > 0 ? h : 0;
+}
+
+static void write_atom(writer *w, sbuf *sb, int a)
+{
+    const canon_ctx *c = w->c;
+    const as_mol *m = c->m;
+    const as_atom *at = &m->atoms[a];
+    int chir = written_chirality(w, a);
+    int iso = c->o->isotopes ? at->isotope : -1;
+    int map = c->o->atom_maps ? at->mapnum : 0;
+    const char *sym = as_element_symbol(at->elem);
+    if (!sym)
+        sym = "*";
+    char low[4] = {0};
+    if (at->aromatic) {
+        size_t l = strlen(sym);
+        for (size_t i = 0; i < l && i < 3; i++)
+            low[i] = (char)(i == 0 ? sym[0] - 'A' + 'a' : sym[i]);
+        sym = low;
+    }
+    int bare = organic_subset(at->elem) && at->charge == 0 && iso < 0 && map == 0 && !chir &&
+               implied_h(m, a, 1) == at->total_h &&
+               (!at->aromatic || at->elem == 5 || at->elem == 6 || at->elem == 7 ||
+                at->elem == 8 || at->elem == 15 || at->elem == 16);
+    if (at->elem == 0 && at->charge == 0 && iso < 0 && map == 0 && at->total_h == 0) {
+        sb_putc(sb, '*');
+        return;
+    }
+    if (bare) {
+        sb_puts(sb, sym);
+        return;
+    }
+    sb_putc(sb, '[');
+    if (iso >= 0)
+        sb_int(sb, iso);
+    sb_puts(sb, sym);
+    if (chir)
+        sb_puts(sb, chir == AS_CCW ? "@" : "@@");
+    if (at->total_h > 0) {
+        sb_putc(sb, 'H');
+        if (at->total_h > 1)
+            sb_int(sb, at->total_h);
+    }
+    if (at->charge) {
+        sb_putc(sb, at->charge > 0 ? '+' : '-');
+        int mag = at->charge > 0 ? at->charge : -at->charge;
+        if (mag > 1)
+            sb_int(sb, mag);
+    }
+    if (map) {
+        sb_putc(sb, ':');
+        sb_int(sb, map);
+    }
+    sb_putc(sb, ']');
+}
+
+static void write_bond(const writer *w, sbuf *sb, int b, int from)
+{
+    const as_mol *m = w->c->m;
+    const as_bond *bd = &m->bonds[b];
+    (void)from;
+    if (bd->aromatic)
+        return;
+    switch (bd->order) {
+    case AS_BOND_DOUBLE: sb_putc(sb, '='); return;
+    case AS_BOND_TRIPLE: sb_putc(sb, '#'); return;
+    case AS_BOND_QUADRUPLE: sb_putc(sb, '$'); return;
+    default: break;
+    }
+    if (w->dir[b]) {
+        sb_putc(sb, w->dir[b] > 0 ? '/' : '\\');
+        return;
+    }
+    if (m->atoms[bd->a].aromatic && m->atoms[bd->b].aromatic)
+        sb_putc(sb, '-');
+}
+
+static void write_digit(sbuf *sb, int d)
+{
+    if (d < 10) {
+        sb_putc(sb, (char)('0' + d));
+    } else {
+        sb_putc(sb, '%');
+        sb_int(sb, d);
+    }
+}
+
+/* Pass 2: emit atoms in visit order with branches and ring digits. */
+static as_status emit(writer *w, sbuf *sb)
+{
+    const as_mol *m = w->c->m;
+    int n = w->c->n;
+    char used[100] = {0};
+    /* explicit stack of (atom, next child index); branch parentheses by position */
+    int *stack = malloc((size_t)(n ? n : 1) * sizeof(int));
+    int *ci = malloc((size_t)(n ? n : 1) * sizeof(int));
+    if (!stack || !ci) {
+        free(stack);
+        free(ci);
+        return AS_ERR_NOMEM;
+    }
+    int first_comp = 1;
+    for (int k = 0; k < w->nseq; k++) {
+        int s = w->seq[k];
+        if (w->parent[s] >= 0)
+            continue;
+        if (!first_comp)
+            sb_putc(sb, '.');
+        first_comp = 0;
+        int top = 0;
+        stack[top] = s;
+        ci[top] = -1;
+        top++;
+        while (top) {
+            int u = stack[top - 1];
+            if (ci[top - 1] == -1) {
+                /* first time: write the atom and its ring digits */
+                write_atom(w, sb, u);
+                int rbs[AS_MAX_DEGREE];
+                int nr = ring_bonds_at(w, u, rbs);
+                for (int i = 0; i < nr; i++) {
+                    ringbond *r = &w->rb[rbs[i]];
+                    if (r->closer == u) {
+                        /* closing: bond symbol was written at the opening */
+                        write_digit(sb, r->digit);
+                        used[r->digit] = 0;
+                    } else {
+                        int d = 1;
+                        while (d < 100 && used[d])
+                            d++;
+                        if (d == 100) {
+                            d = 0;
+                            if (used[0]) {
+                                free(stack);
+                                free(ci);
+                                return AS_ERR_LIMIT;
+                            }
+                        }
+                        used[d] = 1;
+                        r->digit = d;
+                        write_bond(w, sb, r->bond, u);
+                        write_digit(sb, d);
+                    }
+                }
+                ci[top - 1] = 0;
+            }
+            int nch = w->child_start[u + 1] - w->child_start[u];
+            int i = ci[top - 1];
+            if (i >= nch) {
+                top--;
+                if (top && ci[top - 1] < w->child_start[stack[top - 1] + 1] -
+                                             w->child_start[stack[top - 1]])
+                    sb_putc(sb, ')');
+                continue;
+            }
+            int v = w->children[w->child_start[u] + i];
+            ci[top - 1] = i + 1;
+            if (i + 1 < nch)
+                sb_putc(sb, '(');
+            write_bond(w, sb, as_mol_bond_between(m, u, v), u);
+            stack[top] = v;
+            ci[top] = -1;
+            top++;
+        }
+    }
+    free(stack);
+    free(ci);
+    return sb->oom ? AS_ERR_NOMEM : AS_OK;
+}
+
+/* Writes the SMILES for one full ranking. Returns new string or NULL. */
+static char *write_smiles(canon_ctx *c, const int *rank, as_status *st)
+{
+    const as_mol *m = c->m;
+    int n = c->n;
+    writer w;
+    memset(&w, 0, sizeof w);
+    w.c = c;
+    w.rank = rank;
+    size_t na = (size_t)(n ? n : 1), nb = (size_t)(m->nbonds ? m->nbonds : 1);
+    w.visited = malloc(na * sizeof(int));
+    w.parent = malloc(na * sizeof(int));
+    w.seq = malloc(na * sizeof(int));
+    w.rb = malloc(nb * sizeof(ringbond));
+    w.child_start = malloc((na + 1) * sizeof(int));
+    w.children = malloc(na * sizeof(int));
+    w.dir = calloc(nb, 1);
+    w.written_first = malloc(nb * sizeof(int));
+    sbuf sb = {0};
+    char *out = NULL;
+    *st = AS_ERR_NOMEM;
+    if (!w.visited || !w.parent || !w.seq || !w.rb || !w.child_start || !w.children || !w.dir ||
+        !w.written_first)
+        goto done;
+    if (build_tree(&w))
+        goto done;
+    assign_dirs(&w);
+    *st = emit(&w, &sb);
+    if (*st == AS_OK) {
+        if (!sb.s)
+            sb_puts(&sb, "");
+        out = sb.s;
+        sb.s = NULL;
+        if (!out)
+            *st = AS_ERR_NOMEM;
+    }
+done:
+    free(sb.s);
+    free(w.visited);
+    free(w.parent);
+    free(w.seq);
+    free(w.rb);
+    free(w.child_start);
+    free(w.children);
+    free(w.dir);
+    free(w.written_first);
+    return out;
+}
+
+/* ---------------------------------------------------------------- search over tie breaks */
+
+static void consider(canon_ctx *c, char *s)
+{
+    size_t l = strlen(s);
+    if (!c->best || l < c->best_len || (l == c->best_len && strcmp(s, c->best) < 0)) {
+        free(c->best);
+        c->best = s;
+        c->best_len = l;
+    } else {
+        free(s);
+    }
+}
+
+static void explore(canon_ctx *c, int *rank)
+{
+    int n = c->n;
+    int *work = malloc((size_t)(n ? n : 1) * sizeof(int));
+    int *cnt = calloc((size_t)(n ? n : 1), sizeof(int));
+    if (!work || !cnt) {
+        free(work);
+        free(cnt);
+        c->st = AS_ERR_NOMEM;
+        return;
+    }
+    for (;;) {
+        refine(c, rank);
+        memset(cnt, 0, (size_t)n * sizeof(int));
+        for (int i = 0; i < n; i++)
+            cnt[rank[i]]++;
+        int r = -1;
+        for (int i = 0; i < n; i++)
+            if (cnt[i] > 1) {
+                r = i;
+                break;
+            }
+        if (r < 0) {
+            as_status st;
+            char *s = write_smiles(c, rank, &st);
+            if (!s) {
+                c->st = st;
+                break;
+            }
+            c->leaves++;
+            consider(c, s);
+            break;
+        }
+        /* members of the first tied class, in atom order */
+        int first = -1;
+        for (int i = 0; i < n; i++)
+            if (rank[i] == r) {
+                if (first < 0) {
+                    first = i;
+                    if (!c->has_stereo)
+                        break;
+                    continue;
+                }
+                if (c->leaves >= MAX_LEAVES)
+                    break;
+                memcpy(work, rank, (size_t)n * sizeof(int));
+                for (int j = 0; j < n; j++)
+                    if (work[j] == r && j != i)
+                        work[j] = r + 1;
+                explore(c, work);
+                if (c->st != AS_OK)
+                    break;
+            }
+        if (c->st != AS_OK)
+            break;
+        for (int j = 0; j < n; j++)
+            if (rank[j] == r && j != first)
+                rank[j] = r + 1;
+    }
+    free(work);
+    free(cnt);
+}
+
+/* ---------------------------------------------------------------- public */
+
+void as_canon_opts_init(as_canon_opts *o)
+{
+    o->stereo = 1;
+    o->atom_maps = 1;
+    o->isotopes = 1;
+}
+
+static void ctx_free(canon_ctx *c)
+{
+    free(c->cls);
+    free(c->real_tetra);
+    free(c->real_db);
+    free(c->order);
+    free(c->tmp);
+    free(c->nkey);
+    free(c->newrank);
+    free(c->best);
+}
+
+static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
+{
+    memset(c, 0, sizeof *c);
+    c->m = m;
+    c->o = o;
+    c->n = m->natoms;
+    size_t na = (size_t)(m->natoms ? m->natoms : 1);
+    c->cls = malloc(na * sizeof(int));
+    c->real_tetra = calloc((size_t)(m->ntetra ? m->ntetra : 1), 1);
+    c->real_db = calloc((size_t)(m->ndbs ? m->ndbs : 1), 1);
+    c->order = malloc(na * sizeof(int));
+    c->tmp = malloc(na * sizeof(int));
+    c->nkey = malloc(na * AS_MAX_DEGREE * sizeof(int));
+    c->newrank = malloc(na * sizeof(int));
+    if (!c->cls || !c->real_tetra || !c->real_db || !c->order || !c->tmp || !c->nkey ||
+        !c->newrank)
+        return AS_ERR_NOMEM;
+    initial_ranks(c, c->cls);
+    if (c->st != AS_OK)
+        return c->st;
+    refine(c, c->cls);
+    return AS_OK;
+}
+
+as_status as_canon_classes(const as_mol *m, int *cls, as_error *err)
+{
+    as_canon_opts o;
+    as_canon_opts_init(&o);
+    canon_ctx c;
+    as_status st = ctx_init(&c, m, &o);
+    if (st == AS_OK) {
+        /* dense 0-based class numbers in rank order */
+        int *map = malloc((size_t)(m->natoms ? m->natoms : 1) * sizeof(int));
+        if (!map) {
+            st = AS_ERR_NOMEM;
+        } else {
+            for (int i = 0; i < m->natoms; i++)
+                map[i] = -1;
+            for (int i = 0; i < m->natoms; i++)
+                map[c.cls[i]] = 0;
+            int k = 0;
+            for (int i = 0; i < m->natoms; i++)
+                if (map[i] == 0)
+                    map[i] = k++;
+            for (int i = 0; i < m->natoms; i++)
+                cls[i] = map[c.cls[i]];
+            free(map);
+        }
+    }
+    ctx_free(&c);
+    if (st != AS_OK)
+        return as_error_set(err, st, -1, -1, "out of memory while ranking atoms");
+    return AS_OK;
+}
+
+/* Folds plain explicit hydrogen atoms ([H] bonded to one heavy atom, no isotope, charge or
+ * class) into their neighbour's H count, so "[H]C" and "C" write alike. Returns a new
+ * molecule, or NULL when there is nothing to fold (or out of memory: *oom set). */
+static as_mol *fold_hydrogens(const as_mol *m, int *oom)
+{
+    *oom = 0;
+    int any = 0;
+    for (int i = 0; i < m->natoms && !any; i++) {
+        const as_atom *a = &m->atoms[i];
+        any = a->elem == 1 && a->isotope < 0 && a->charge == 0 && a->mapnum == 0 &&
+              a->degree == 1 && m->atoms[a->nbr[0]].elem != 1 &&
+              m->bonds[a->nbond[0]].order == AS_BOND_SINGLE;
+    }
+    if (!any)
+        return NULL;
+    as_mol *c = as_mol_copy(m);
+    if (!c) {
+        *oom = 1;
+        return NULL;
+    }
+    for (int i = c->natoms - 1; i >= 0; i--) {
+        const as_atom *a = &c->atoms[i];
+        if (!(a->elem == 1 && a->isotope < 0 && a->charge == 0 && a->mapnum == 0 &&
+              a->degree == 1 && c->atoms[a->nbr[0]].elem != 1 &&
+              c->bonds[a->nbond[0]].order == AS_BOND_SINGLE))
+            continue;
+        int heavy = a->nbr[0];
+        /* a centre can hold one implicit H in its stereo record */
+        int ti = as_mol_find_tetra(c, heavy), clash = 0;
+        if (ti >= 0)
+            for (int k = 0; k < 4; k++)
+                clash |= c->tetra[ti].nbr[k] == AS_IMPLICIT_H;
+        if (clash)
+            continue;
+        c->atoms[heavy].total_h++;
+        if (c->atoms[heavy].hcount >= 0)
+            c->atoms[heavy].hcount++;
+        int keep_perceived = c->perceived;
+        if (as_mol_remove_atom(c, i) != AS_OK) {
+            as_mol_free(c);
+            *oom = 1;
+            return NULL;
+        }
+        c->perceived = keep_perceived;
+    }
+    /* ring data index atoms: hydrogens are never ring atoms, but indices shifted */
+    if (as_perceive(c, AS_PASS_RINGS, NULL, NULL) != AS_OK) {
+        as_mol_free(c);
+        *oom = 1;
+        return NULL;
+    }
+    return c;
+}
+
+as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out,
+                          as_error *err)
+{
+    as_canon_opts defaults;
+    if (!opts) {
+        as_canon_opts_init(&defaults);
+        opts = &defaults;
+    }
+    *out = NULL;
+    if (m->natoms == 0) {
+        *out = calloc(1, 1);
+        return *out ? AS_OK : as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    }
+    int oom = 0;
+    as_mol *folded = fold_hydrogens(m, &oom);
+    if (oom)
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    if (folded)
+        m = folded;
+    canon_ctx c;
+    as_status st = ctx_init(&c, m, opts);
+    if (st == AS_OK) {
+        find_real_stereo(&c);
+        st = c.st;
+    }
+    int *rank = NULL;
+    if (st == AS_OK) {
+        rank = malloc((size_t)m->natoms * sizeof(int));
+        if (!rank)
+            st = AS_ERR_NOMEM;
+    }
+    if (st == AS_OK) {
+        memcpy(rank, c.cls, (size_t)m->natoms * sizeof(int));
+        explore(&c, rank);
+        st = c.st;
+    }
+    if (st == AS_OK && c.best) {
+        *out = c.best;
+        c.best = NULL;
+    }
+    free(rank);
+    ctx_free(&c);
+    as_mol_free(folded);
+    if (st == AS_ERR_LIMIT)
+        return as_error_set(err, st, -1, -1,
+                            "more than 100 ring bonds open at once: cannot write SMILES");
+    if (st != AS_OK || !*out)
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory while writing SMILES");
+    return AS_OK;
+}
+
+as_status as_canon_from_text(const char *text, size_t len, const as_canon_opts *opts,
+                             char **out, as_error *err)
+{
+    as_mol *m = NULL;
+    *out = NULL;
+    as_status st = as_smiles_parse(text, len, &m, err);
+    if (st != AS_OK)
+        return st;
+    st = as_canon_smiles(m, opts, out, err);
+    as_mol_free(m);
+    return st;
+}
