@@ -1,4 +1,4 @@
-/* addsite/rules.h — the reaction rule table: reactions/*.json loaded once, reagents recognised.
+/* addsite/rules.h — the reaction rule table: reactions/<id>.json loaded once, reagents recognised.
  * Owns: loading and validating rule files (cJSON), compiled reagent patterns (PCRE2), reagent
  * recognition from text and from agent SMILES. Must not: build molecules.
  *
