@@ -43,6 +43,12 @@
  * our threshold, estimate). */
 #define SHIFT_MIN_GAIN 10.0
 
+/* HBr radical addition to 1-methylcyclohexene at -78 °C is anti and gives the cis bromide
+ * (Goering, Abell & Aycock, J. Am. Chem. Soc. 1952, 74, 3588, from memory; reference not
+ * verified); at higher temperature the carbon radical has no stereo control. We apply anti
+ * addition to ring C=C (fewer than 8 atoms) at or below this temperature, °C. */
+#define RADICAL_ANTI_MAX_C (-70.0)
+
 /* ---------------------------------------------------------------- small helpers */
 
 const char *as_stereo_name(as_stereo s)
@@ -66,6 +72,7 @@ void as_addition_opts_init(as_addition_opts *o)
     o->allow_shifts = 1;
     o->allow_conjugate = 1;
     o->tie_kcal_x100 = 50;
+    o->temp_c = NAN;
 }
 
 void as_adduct_clear(as_adduct *a)
@@ -176,8 +183,15 @@ static int attach(as_mol *p, int c, const group *g)
     return off;
 }
 
+/* Perceives a product built from a perceived copy. The copy holds Kekulé orders, so the
+ * aromatic flags are cleared first (the hydrogen pass counts one aromatic π bond for atoms
+ * still flagged aromatic); the aromaticity pass sets them again. */
 static as_status perceive_product(as_mol *p, const as_rule *r, as_error *err)
 {
+    for (int i = 0; i < p->natoms; i++)
+        p->atoms[i].aromatic = 0;
+    for (int i = 0; i < p->nbonds; i++)
+        p->bonds[i].aromatic = 0;
     as_error e2;
     as_error_clear(&e2);
     unsigned failed = 0;
@@ -334,8 +348,20 @@ static as_status finish_stereo(as_adduct *ad, const as_mol *sub, const int *cand
         if (!dup && is_centre(p, cls, cand[i]) && k < 4)
             centre[k++] = cand[i];
     }
+    /* Other stereocentres of the product (kept from the substrate, marked or not): the new
+     * centres' configuration relative to them is not controlled by syn/anti addition. */
+    int other = 0;
+    for (int i = 0; i < p->natoms && !other; i++) {
+        int mine = 0;
+        for (int j = 0; j < k; j++)
+            mine |= centre[j] == i;
+        for (int j = 0; j < n; j++)
+            mine |= cand[j] == i;
+        if (!mine && (as_mol_find_tetra(p, i) >= 0 || is_centre(p, cls, i)))
+            other = 1;
+    }
     free(cls);
-    int chiral_sub = sub->ntetra > 0;
+    int chiral_sub = sub->ntetra > 0 || other;
     ad->new_centres = k;
     if (k == 0) {
         ad->stereo = chiral_sub ? AS_STEREO_SINGLE : AS_STEREO_NONE;
@@ -742,6 +768,9 @@ as_status as_addition_run(const as_mol *sub, const as_sites *sites, int site,
     int pref = sc[0] <= sc[1] ? 0 : 1;
     int alike = fabs(sc[0] - sc[1]) < tie;
     as_addmode mode = rule->stereo;
+    if (rule->regio == AS_REGIO_RADICAL && mode == AS_ADD_NONE && s->geometry == AS_GEOM_RING &&
+        !isnan(opts->temp_c) && opts->temp_c <= RADICAL_ANTI_MAX_C)
+        mode = AS_ADD_ANTI;
     for (int pass = 0; pass < 2 && st == AS_OK; pass++) {
         int k = pass == 0 ? pref : 1 - pref;
         st = place(sub, sites, site, k, rule, variant, &g, mode, &ad, err);

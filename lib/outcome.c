@@ -392,7 +392,11 @@ static as_status run_site(as_outcome *o, const as_mol *mol, const as_sites *site
                           as_error *err)
 {
     as_adducts *l = NULL;
-    as_status st = as_addition_run(mol, sites, site, o->rule, o->variant, NULL, &l, err);
+    as_addition_opts ao;
+    as_addition_opts_init(&ao);
+    if (o->temp_given)
+        ao.temp_c = o->temp_c;
+    as_status st = as_addition_run(mol, sites, site, o->rule, o->variant, &ao, &l, err);
     if (st != AS_OK)
         return st;
     double *share = calloc((size_t)l->n + 1, sizeof *share);
@@ -703,6 +707,12 @@ static int rationale_mechanism(as_outcome *o, const as_adducts *l)
     }
     /* stereo */
     if (pref->marked) {
+        int low_t_radical = r->regio == AS_REGIO_RADICAL && r->stereo == AS_ADD_NONE;
+        if (low_t_radical &&
+            say(o, "At %.0f °C radical addition to a ring C=C is anti (Goering, Abell & Aycock, "
+                   "J. Am. Chem. Soc. 1952, 74, 3588, from memory; reference not verified).",
+                o->temp_c))
+            return -1;
         if (say(o, "%s addition to the %s C=C fixes the relative configuration of the new "
                    "stereocentres (written with @/@@); the product is %s.",
                 r->stereo == AS_ADD_SYN ? "Syn" : "Anti",
@@ -968,6 +978,10 @@ as_status as_outcome_json(const as_outcome *o, int pretty, char **out, as_error 
     ok &= cJSON_AddStringToObject(root, "substrate", o->substrate) != NULL;
     ok &= cJSON_AddStringToObject(root, "reaction", o->rule->id) != NULL;
     ok &= cJSON_AddStringToObject(root, "reagents", o->variant->name) != NULL;
+    if (o->variant->reagent_smiles)
+        ok &= cJSON_AddStringToObject(root, "reagent_smiles", o->variant->reagent_smiles) != NULL;
+    else
+        ok &= cJSON_AddNullToObject(root, "reagent_smiles") != NULL;
     ok &= cJSON_AddNumberToObject(root, "temperature_c", o->temp_c) != NULL;
     ok &= cJSON_AddBoolToObject(root, "temperature_given", o->temp_given) != NULL;
     ok &= cJSON_AddNumberToObject(root, "equivalents", o->equiv) != NULL;

@@ -80,7 +80,10 @@ typedef struct as_addition_opts {
     int allow_shifts;     /* 1 (default): 1,2-shifts where the rule says shifts = 1 */
     int allow_conjugate;  /* 1 (default): 1,4/conjugate paths where the rule says so */
     int tie_kcal_x100;    /* scores closer than this /100 kcal/mol count as alike
-                             (default 100 = 1.0 kcal/mol; steric ties use 0.05 units) */
+                             (default 50 = 0.5 kcal/mol) */
+    double temp_c;        /* reaction temperature, °C; NAN (default) when not known. Radical
+                             addition to a ring C=C at or below -70 °C is anti (see
+                             lib/addition.c) */
 } as_addition_opts;
 
 void as_addition_opts_init(as_addition_opts *o);

@@ -89,9 +89,10 @@ as_status as_predict(const as_rules *rules, const as_mol *substrate,
 
 void as_outcome_free(as_outcome *o);
 
-/* Renders the outcome as a JSON object: substrate, reaction, reagents, temperature_c,
- * equivalents, mixture, sites [{atoms, class, ends [{atom, cation_hia, cation_kind,
- * radical_bde, steric}]}], products [{smiles, role, share, share_source, share_published,
+/* Renders the outcome as a JSON object: substrate, reaction, reagents, reagent_smiles (atoms
+ * one equivalent adds, or null), temperature_c, temperature_given, equivalents, mixture,
+ * sites [{atoms, class, reacts, ends [{atom, cation_hia_kcal, cation_kind, radical_bde_kcal,
+ * steric}]}], products [{smiles, role, share, share_source, share_published,
  * stereo, rearranged, regio, path}], rationale [], cautions []. Atom numbers are 1-based
  * positions in the input SMILES. Returns a new string in *out (caller frees with free());
  * pretty = 1 indents it. */
