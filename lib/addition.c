@@ -348,6 +348,10 @@ static as_status finish_stereo(as_adduct *ad, const as_mol *sub, const int *cand
         if (!dup && is_centre(p, cls, cand[i]) && k < 4)
             centre[k++] = cand[i];
     }
+    /* Substrate records on atoms that are no longer stereocentres are dropped. */
+    for (int i = p->ntetra - 1; i >= 0; i--)
+        if (p->atoms[p->tetra[i].center].elem == 6 && !is_centre(p, cls, p->tetra[i].center))
+            p->tetra[i] = p->tetra[--p->ntetra];
     /* Other stereocentres of the product (kept from the substrate, marked or not): the new
      * centres' configuration relative to them is not controlled by syn/anti addition. */
     int other = 0;
@@ -364,7 +368,7 @@ static as_status finish_stereo(as_adduct *ad, const as_mol *sub, const int *cand
     int chiral_sub = sub->ntetra > 0 || other;
     ad->new_centres = k;
     if (k == 0) {
-        ad->stereo = chiral_sub ? AS_STEREO_SINGLE : AS_STEREO_NONE;
+        ad->stereo = p->ntetra > 0 ? AS_STEREO_SINGLE : AS_STEREO_NONE;
         return AS_OK;
     }
     if (k == 1 || chiral_sub || nrec == 0) {

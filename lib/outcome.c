@@ -859,7 +859,8 @@ as_status as_predict(const as_rules *rules, const as_mol *substrate,
     /* keep: published or above min_share; at most max_products */
     int keep = 0;
     for (int i = 0; i < cl.n; i++) {
-        int ok = (cl.v[i].share >= opts->min_share || cl.v[i].published) &&
+        int ok = (cl.v[i].share >= opts->min_share ||
+                  (cl.v[i].published && cl.v[i].share >= 0.1)) &&
                  (opts->max_products <= 0 || keep < opts->max_products);
         if (ok)
             cl.v[keep++] = cl.v[i];
