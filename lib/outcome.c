@@ -456,9 +456,16 @@ done:
  * radical, none, cleave): the sum of the two ends' cation hydride affinities (the more
  * electron-rich C=C leaves the more stable cation; more substituted first). Boranes: the
  * summed steric demand (least hindered first). */
-static double site_key(const as_site *s, const as_rule *r)
+/* 1 when the ranking is by steric demand: boranes, and reagent sets that add H to both ends
+ * (catalytic hydrogenation: less substituted C=C are reduced first, common practice). */
+static int steric_ranking(const as_rule *r, const as_rule_variant *v)
 {
-    if (r->regio == AS_REGIO_BORANE)
+    return r->regio == AS_REGIO_BORANE || (is_h_group(v->first) && is_h_group(v->second));
+}
+
+static double site_key(const as_site *s, const as_rule *r, const as_rule_variant *v)
+{
+    if (steric_ranking(r, v))
         return s->end[0].steric + s->end[1].steric;
     return s->end[0].cation_hia + s->end[1].cation_hia;
 }
@@ -472,8 +479,8 @@ static as_status rank_sites(as_outcome *o, as_error *err)
     for (int i = 0; i < n; i++)
         ord[i] = i;
     for (int i = 1; i < n; i++)
-        for (int j = i; j > 0 && site_key(&o->sites->site[ord[j]], o->rule) <
-                                     site_key(&o->sites->site[ord[j - 1]], o->rule);
+        for (int j = i; j > 0 && site_key(&o->sites->site[ord[j]], o->rule, o->variant) <
+                                     site_key(&o->sites->site[ord[j - 1]], o->rule, o->variant);
              j--) {
             int t = ord[j];
             ord[j] = ord[j - 1];
@@ -540,7 +547,7 @@ static int rationale_sites(as_outcome *o)
                "input SMILES.",
             ss->n, list))
         return -1;
-    int boranes = o->rule->regio == AS_REGIO_BORANE;
+    int boranes = steric_ranking(o->rule, o->variant);
     if (o->nreact >= ss->n || (o->nreact == 1 && ss->n == 2 && s0->conj_site >= 0 &&
                                o->rule->conjugate))
         return say(o, "With %.0f equivalent(s) every C=C reacts.", o->equiv);
@@ -552,7 +559,8 @@ static int rationale_sites(as_outcome *o)
             used |= o->react[k] == i;
         if (!used && (o->rule->conjugate ? i != s0->conj_site : 1)) {
             if (runner < 0 ||
-                site_key(&ss->site[i], o->rule) < site_key(&ss->site[runner], o->rule))
+                site_key(&ss->site[i], o->rule, o->variant) <
+                    site_key(&ss->site[runner], o->rule, o->variant))
                 runner = i;
         }
     }
@@ -563,14 +571,14 @@ static int rationale_sites(as_outcome *o)
         return say(o, "With %.0f equivalent(s) C%d=C%d reacts first: it is the least hindered "
                       "(summed steric demand %.2f against %.2f methyl equivalents at C%d=C%d); "
                       "the other C=C is kept.",
-                   o->equiv, s0->end[0].atom + 1, s0->end[1].atom + 1, site_key(s0, o->rule),
-                   site_key(sr, o->rule), sr->end[0].atom + 1, sr->end[1].atom + 1);
+                   o->equiv, s0->end[0].atom + 1, s0->end[1].atom + 1, site_key(s0, o->rule, o->variant),
+                   site_key(sr, o->rule, o->variant), sr->end[0].atom + 1, sr->end[1].atom + 1);
     return say(o, "With %.0f equivalent(s) C%d=C%d reacts first: it is the more electron-rich "
                   "(summed cation hydride affinities of its ends %.0f against %.0f kcal/mol at "
                   "C%d=C%d; more substituted alkenes react faster with electrophiles); the "
                   "other C=C is kept.",
-               o->equiv, s0->end[0].atom + 1, s0->end[1].atom + 1, site_key(s0, o->rule),
-               site_key(sr, o->rule), sr->end[0].atom + 1, sr->end[1].atom + 1);
+               o->equiv, s0->end[0].atom + 1, s0->end[1].atom + 1, site_key(s0, o->rule, o->variant),
+               site_key(sr, o->rule, o->variant), sr->end[0].atom + 1, sr->end[1].atom + 1);
 }
 
 static int rationale_mechanism(as_outcome *o, const as_adducts *l)
