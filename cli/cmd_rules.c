@@ -54,14 +54,18 @@ static void text_one(FILE *f, const as_rule *r)
     fprintf(f, "%s — %s\n", r->id, r->title);
     fprintf(f, "  what      %s\n", r->summary);
     fprintf(f, "  regio     %s\n", regio_text(r->regio));
-    fprintf(f, "  stereo    %s addition (%s)\n", stereo_word(r->stereo), r->stereo_source);
+    fprintf(f, "  stereo    %s (%s)\n",
+            r->stereo == AS_ADD_SYN    ? "syn addition"
+            : r->stereo == AS_ADD_ANTI ? "anti addition"
+                                       : "no stereo control",
+            r->stereo_source);
     fprintf(f, "  shifts    %s;  conjugate/1,4 %s;  via %s\n", r->shifts ? "yes" : "no",
             r->conjugate ? "yes" : "no", r->intermediate);
     if (r->regio == AS_REGIO_BORANE)
         fprintf(f, "  bulk      %.1f (BH3 = 1.0)\n", r->bulk);
     fprintf(f, "  reagents ");
     for (int i = 0; i < r->nvariants; i++)
-        fprintf(f, " %s%s", r->variants[i].name, i + 1 < r->nvariants ? ";" : "");
+        fprintf(f, " %s%s", r->variants[i].name, i + 1 < r->nvariants ? "  |" : "");
     fputc('\n', f);
     fprintf(f, "  typical   %s\n", r->conditions);
     for (int i = 0; i < r->nfigures; i++) {
