@@ -77,6 +77,7 @@ typedef struct canon_ctx {
     char *real_tetra;  /* per tetra record */
     char *real_db;     /* per dbs record */
     int has_stereo;
+    char *near_stereo; /* per atom: a real stereo element's atom or its neighbour */
     /* refinement scratch */
     int *order;
     int *tmp;
@@ -175,41 +176,18 @@ static void refine(canon_ctx *c, int *rank)
     }
 }
 
-/* Initial invariants → ranks. */
-static void initial_ranks(canon_ctx *c, int *rank)
+/* rank[i] = number of atoms whose 128-bit key (inv[2i], inv[2i+1]) is smaller. */
+static void rank_by_keys(canon_ctx *c, const uint64_t *inv, int *rank)
 {
-    const as_mol *m = c->m;
     int n = c->n;
-    /* pack the invariant into two 64-bit words */
-    uint64_t *inv = malloc((size_t)n * 2 * sizeof(uint64_t));
-    if (!inv) {
-        c->st = AS_ERR_NOMEM;
-        return;
-    }
-    for (int i = 0; i < n; i++) {
-        const as_atom *a = &m->atoms[i];
-        uint64_t hi = 0, lo = 0;
-        hi |= (uint64_t)(a->degree & 0xff) << 56;
-        hi |= (uint64_t)(a->elem & 0xff) << 48;
-        hi |= (uint64_t)((a->isotope + 1) & 0xffff) << 32;
-        hi |= (uint64_t)((a->charge + 64) & 0xff) << 24;
-        hi |= (uint64_t)(a->total_h & 0xff) << 16;
-        hi |= (uint64_t)(a->aromatic & 1) << 8;
-        hi |= (uint64_t)(a->ring_size ? 1 : 0);
-        lo = c->o->atom_maps ? (uint64_t)(unsigned)a->mapnum : 0;
-        inv[2 * i] = hi;
-        inv[2 * i + 1] = lo;
-    }
-    /* rank = number of atoms with a smaller invariant; simple sort of indices */
-    for (int i = 0; i < n; i++)
-        c->order[i] = i;
-    /* insertion sort by invariant is too slow for big molecules: merge sort */
     int *a = c->order, *t = c->tmp;
+    for (int i = 0; i < n; i++)
+        a[i] = i;
     for (int w = 1; w < n; w *= 2) {
-        for (int lo2 = 0; lo2 < n; lo2 += 2 * w) {
-            int mid = lo2 + w < n ? lo2 + w : n, hi2 = lo2 + 2 * w < n ? lo2 + 2 * w : n;
-            int i = lo2, j = mid, k = lo2;
-            while (i < mid && j < hi2) {
+        for (int lo = 0; lo < n; lo += 2 * w) {
+            int mid = lo + w < n ? lo + w : n, hi = lo + 2 * w < n ? lo + 2 * w : n;
+            int i = lo, j = mid, k = lo;
+            while (i < mid && j < hi) {
                 int x = a[i], y = a[j];
                 int ylt = inv[2 * y] < inv[2 * x] ||
                           (inv[2 * y] == inv[2 * x] && inv[2 * y + 1] < inv[2 * x + 1]);
@@ -217,7 +195,7 @@ static void initial_ranks(canon_ctx *c, int *rank)
             }
             while (i < mid)
                 t[k++] = a[i++];
-            while (j < hi2)
+            while (j < hi)
                 t[k++] = a[j++];
         }
         memcpy(a, t, (size_t)n * sizeof(int));
@@ -229,6 +207,33 @@ static void initial_ranks(canon_ctx *c, int *rank)
         else
             rank[x] = i;
     }
+}
+
+/* Initial invariants → ranks: degree, element, isotope, charge, H count, aromaticity, ring
+ * membership, then the atom class when maps are written. */
+static void initial_ranks(canon_ctx *c, int *rank)
+{
+    const as_mol *m = c->m;
+    int n = c->n;
+    uint64_t *inv = malloc((size_t)(n ? n : 1) * 2 * sizeof(uint64_t));
+    if (!inv) {
+        c->st = AS_ERR_NOMEM;
+        return;
+    }
+    for (int i = 0; i < n; i++) {
+        const as_atom *a = &m->atoms[i];
+        uint64_t hi = 0;
+        hi |= (uint64_t)(a->degree & 0xff) << 56;
+        hi |= (uint64_t)(a->elem & 0xff) << 48;
+        hi |= (uint64_t)((a->isotope + 1) & 0xffff) << 32;
+        hi |= (uint64_t)((a->charge + 64) & 0xff) << 24;
+        hi |= (uint64_t)(a->total_h & 0xff) << 16;
+        hi |= (uint64_t)(a->aromatic & 1) << 8;
+        hi |= (uint64_t)(a->ring_size ? 1 : 0);
+        inv[2 * i] = hi;
+        inv[2 * i + 1] = c->o->atom_maps ? (uint64_t)(unsigned)a->mapnum : 0;
+    }
+    rank_by_keys(c, inv, rank);
     free(inv);
 }
 
@@ -322,10 +327,123 @@ static void find_real_stereo(canon_ctx *c)
         }
         c->real_db[i] = (char)ok;
     }
-    for (int i = 0; i < m->ntetra; i++)
-        c->has_stereo |= c->real_tetra[i];
-    for (int i = 0; i < m->ndbs; i++)
-        c->has_stereo |= c->real_db[i];
+    for (int i = 0; i < m->ntetra; i++) {
+        if (!c->real_tetra[i])
+            continue;
+        c->has_stereo = 1;
+        int a = m->tetra[i].center;
+        c->near_stereo[a] = 1;
+        for (int k = 0; k < m->atoms[a].degree; k++)
+            c->near_stereo[m->atoms[a].nbr[k]] = 1;
+    }
+    for (int i = 0; i < m->ndbs; i++) {
+        if (!c->real_db[i])
+            continue;
+        c->has_stereo = 1;
+        const as_bond *b = &m->bonds[m->dbs[i].bond];
+        for (int e = 0; e < 2; e++) {
+            int a = e ? b->b : b->a;
+            c->near_stereo[a] = 1;
+            for (int k = 0; k < m->atoms[a].degree; k++)
+                c->near_stereo[m->atoms[a].nbr[k]] = 1;
+        }
+    }
+}
+
+/* Parity descriptor (1 or 2) of a real centre whose four neighbours all differ in class:
+ * the record's parity carried over to the order sorted by class (H lowest); 0 otherwise. */
+static int centre_descriptor(const canon_ctx *c, const as_tetra *t)
+{
+    int key[4], ord[4];
+    for (int k = 0; k < 4; k++) {
+        key[k] = t->nbr[k] == AS_IMPLICIT_H ? -1 : c->cls[t->nbr[k]];
+        ord[k] = k;
+    }
+    for (int x = 0; x < 4; x++)
+        for (int y = x + 1; y < 4; y++)
+            if (key[x] == key[y])
+                return 0;
+    /* parity of the permutation that sorts the keys */
+    int odd = 0;
+    for (int x = 0; x < 4; x++)
+        for (int y = x + 1; y < 4; y++)
+            if (key[ord[x]] > key[ord[y]])
+                odd ^= 1;
+    int par = t->parity == AS_CCW ? 1 : 2;
+    return odd ? 3 - par : par;
+}
+
+/* Splits classes by configuration: two constitutionally equal centres of opposite
+ * configuration (the two ends of ribitol) become different, which in turn makes a
+ * pseudo-asymmetric centre between them real. Repeats while that changes anything. */
+static void stereo_refine(canon_ctx *c)
+{
+    const as_mol *m = c->m;
+    int n = c->n;
+    int *desc = calloc((size_t)(n ? n : 1), sizeof(int));
+    int *rank = malloc((size_t)(n ? n : 1) * sizeof(int));
+    if (!desc || !rank) {
+        free(desc);
+        free(rank);
+        c->st = AS_ERR_NOMEM;
+        return;
+    }
+    for (int iter = 0; iter < 4; iter++) {
+        int any = 0;
+        memset(desc, 0, (size_t)n * sizeof(int));
+        for (int i = 0; i < m->ntetra; i++) {
+            if (!c->real_tetra[i])
+                continue;
+            desc[m->tetra[i].center] = centre_descriptor(c, &m->tetra[i]);
+            any |= desc[m->tetra[i].center] != 0;
+        }
+        if (!any)
+            break;
+        /* rank by (class, descriptor), then refine */
+        uint64_t *keys = malloc((size_t)n * 2 * sizeof(uint64_t));
+        if (!keys) {
+            c->st = AS_ERR_NOMEM;
+            break;
+        }
+        for (int i = 0; i < n; i++) {
+            keys[2 * i] = (uint64_t)(unsigned)c->cls[i];
+            keys[2 * i + 1] = (uint64_t)(unsigned)desc[i];
+        }
+        rank_by_keys(c, keys, rank);
+        free(keys);
+        int before = 0, after = 0;
+        refine(c, rank);
+        /* count classes to see whether anything split */
+        char *seen = calloc((size_t)(n ? n : 1), 1);
+        if (!seen) {
+            c->st = AS_ERR_NOMEM;
+            break;
+        }
+        for (int i = 0; i < n; i++)
+            if (!seen[c->cls[i]]) {
+                seen[c->cls[i]] = 1;
+                before++;
+            }
+        memset(seen, 0, (size_t)n);
+        for (int i = 0; i < n; i++)
+            if (!seen[rank[i]]) {
+                seen[rank[i]] = 1;
+                after++;
+            }
+        free(seen);
+        if (after == before)
+            break;
+        memcpy(c->cls, rank, (size_t)n * sizeof(int));
+        memset(c->real_tetra, 0, (size_t)(m->ntetra ? m->ntetra : 1));
+        memset(c->real_db, 0, (size_t)(m->ndbs ? m->ndbs : 1));
+        memset(c->near_stereo, 0, (size_t)n);
+        c->has_stereo = 0;
+        find_real_stereo(c);
+        if (c->st != AS_OK)
+            break;
+    }
+    free(desc);
+    free(rank);
 }
 
 /* ---------------------------------------------------------------- writer */
@@ -486,8 +604,6 @@ static int written_nbrs(const writer *w, int a, int *out, int with_h)
     int n = 0;
     if (w->parent[a] >= 0)
         out[n++] = w->parent[a];
-    if (with_h)
-        out[n++] = AS_IMPLICIT_H;
     int rbs[AS_MAX_DEGREE];
     int nr = ring_bonds_at(w, a, rbs);
     for (int i = 0; i < nr; i++) {
@@ -496,6 +612,16 @@ static int written_nbrs(const writer *w, int a, int *out, int with_h)
     }
     for (int k = w->child_start[a]; k < w->child_start[a + 1]; k++)
         out[n++] = w->children[k];
+    if (with_h) {
+        /* an H goes where it is written (after the parent, else first); a lone pair of a
+         * three-coordinate centre always takes the second place (see smiles_read.c) */
+        int pos = (w->parent[a] >= 0 || w->c->m->atoms[a].total_h == 0) ? 1 : 0;
+        if (pos > n)
+            pos = n;
+        memmove(out + pos + 1, out + pos, (size_t)(n - pos) * sizeof(int));
+        out[pos] = AS_IMPLICIT_H;
+        n++;
+    }
     return n;
 }
 
@@ -544,6 +670,18 @@ static int written_chirality(const writer *w, int a)
 }
 
 /* ---------------------------------------------------------------- double-bond marks */
+
+/* 1 when atom a has a non-aromatic single bond other than bond skip. */
+static int has_plain_single(const as_mol *m, int a, int skip)
+{
+    const as_atom *at = &m->atoms[a];
+    for (int k = 0; k < at->degree; k++) {
+        const as_bond *b = &m->bonds[at->nbond[k]];
+        if (at->nbond[k] != skip && b->order == AS_BOND_SINGLE && !b->aromatic)
+            return 1;
+    }
+    return 0;
+}
 
 /* Assigns '/' '\' to single bonds next to real stereo double bonds, by propagation. Each
  * marked bond's value is the side of its second-written atom relative to its first. */
@@ -637,8 +775,11 @@ static void assign_dirs(writer *w)
                 const as_atom *u = &m->atoms[ends[e]];
                 for (int k = 0; k < u->degree; k++) {
                     int bk = u->nbond[k];
-                    if (bk == d->bond || m->bonds[bk].order != AS_BOND_SINGLE ||
-                        m->bonds[bk].aromatic)
+                    if (bk == d->bond || m->bonds[bk].order == AS_BOND_DOUBLE ||
+                        m->bonds[bk].order == AS_BOND_TRIPLE)
+                        continue;
+                    /* aromatic ring bonds carry a mark only when nothing else can */
+                    if (m->bonds[bk].aromatic && has_plain_single(m, ends[e], d->bond))
                         continue;
                     int side = u->nbr[k] == refs[e] ? ref_side[e] : -ref_side[e];
                     int val = w->written_first[bk] == ends[e] ? side : -side;
@@ -670,7 +811,7 @@ static int implied_h(const as_mol *m, int a, int aromatic_out)
     }
     int v = as_default_valence(at->elem, sum);
     if (v < 0)
-        return 0;
+        return -1; /* above every normal valence: toolkits disagree, so write brackets */
     int h = v - sum - (aromatic_out && at->aromatic ? 1 : 0);
     return h > 0 ? h : 0;
 }
@@ -734,8 +875,11 @@ static void write_bond(const writer *w, sbuf *sb, int b, int from)
     const as_mol *m = w->c->m;
     const as_bond *bd = &m->bonds[b];
     (void)from;
-    if (bd->aromatic)
+    if (bd->aromatic) {
+        if (w->dir[b])
+            sb_putc(sb, w->dir[b] > 0 ? '/' : '\\');
         return;
+    }
     switch (bd->order) {
     case AS_BOND_DOUBLE: sb_putc(sb, '='); return;
     case AS_BOND_TRIPLE: sb_putc(sb, '#'); return;
@@ -922,12 +1066,18 @@ static void explore(canon_ctx *c, int *rank)
         memset(cnt, 0, (size_t)n * sizeof(int));
         for (int i = 0; i < n; i++)
             cnt[rank[i]]++;
-        int r = -1;
+        /* the tie to break: the first tied class next to a stereo element when there is
+         * one (explored exhaustively below), else simply the first tied class */
+        int r = -1, r_near = -1;
         for (int i = 0; i < n; i++)
-            if (cnt[i] > 1) {
-                r = i;
-                break;
+            if (cnt[rank[i]] > 1) {
+                if (r < 0 || rank[i] < r)
+                    r = rank[i];
+                if (c->has_stereo && c->near_stereo[i] && (r_near < 0 || rank[i] < r_near))
+                    r_near = rank[i];
             }
+        if (r_near >= 0)
+            r = r_near;
         if (r < 0) {
             as_status st;
             char *s = write_smiles(c, rank, &st);
@@ -939,13 +1089,16 @@ static void explore(canon_ctx *c, int *rank)
             consider(c, s);
             break;
         }
-        /* members of the first tied class, in atom order */
+        /* members of the first tied class, in atom order; branching pays only where the
+         * class touches a stereo element (swapping the F atoms of a CF3 cannot change the
+         * string, swapping two mirror-related stereocentres can) */
+        int branch = r_near >= 0;
         int first = -1;
         for (int i = 0; i < n; i++)
             if (rank[i] == r) {
                 if (first < 0) {
                     first = i;
-                    if (!c->has_stereo)
+                    if (!branch)
                         break;
                     continue;
                 }
@@ -983,6 +1136,7 @@ static void ctx_free(canon_ctx *c)
     free(c->cls);
     free(c->real_tetra);
     free(c->real_db);
+    free(c->near_stereo);
     free(c->order);
     free(c->tmp);
     free(c->nkey);
@@ -1000,11 +1154,12 @@ static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
     c->cls = malloc(na * sizeof(int));
     c->real_tetra = calloc((size_t)(m->ntetra ? m->ntetra : 1), 1);
     c->real_db = calloc((size_t)(m->ndbs ? m->ndbs : 1), 1);
+    c->near_stereo = calloc(na, 1);
     c->order = malloc(na * sizeof(int));
     c->tmp = malloc(na * sizeof(int));
     c->nkey = malloc(na * AS_MAX_DEGREE * sizeof(int));
     c->newrank = malloc(na * sizeof(int));
-    if (!c->cls || !c->real_tetra || !c->real_db || !c->order || !c->tmp || !c->nkey ||
+    if (!c->cls || !c->real_tetra || !c->real_db || !c->near_stereo || !c->order || !c->tmp || !c->nkey ||
         !c->newrank)
         return AS_ERR_NOMEM;
     initial_ranks(c, c->cls);
@@ -1122,6 +1277,10 @@ as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out
     as_status st = ctx_init(&c, m, opts);
     if (st == AS_OK) {
         find_real_stereo(&c);
+        st = c.st;
+    }
+    if (st == AS_OK && c.has_stereo) {
+        stereo_refine(&c);
         st = c.st;
     }
     int *rank = NULL;

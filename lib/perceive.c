@@ -90,6 +90,17 @@ static as_status pass_hydrogens(as_mol *m, as_error *err)
 static as_status check_valence_atom(const as_mol *m, int i, as_error *err)
 {
     const as_atom *a = &m->atoms[i];
+    if ((a->elem == 17 || a->elem == 35 || a->elem == 53) && a->charge == 0 && !a->bracket) {
+        /* neutral Cl, Br, I: valence 1, 3, 5 or 7 (perchlorate, periodinanes) */
+        int v = a->total_h;
+        for (int k = 0; k < a->degree; k++)
+            v += m->bonds[a->nbond[k]].order == AS_BOND_AROMATIC ? 1 : m->bonds[a->nbond[k]].order;
+        if (v > 7 || v % 2 == 0)
+            return as_error_set(err, AS_ERR_VALENCE, a->src_offset, i,
+                                "atom %d (%s) has %d bonds to it; a neutral halogen takes 1, 3, 5 or 7",
+                                i + 1, as_element_symbol(a->elem), v);
+        return AS_OK;
+    }
     int maxv = max_valence(a->elem, a->charge);
     if (maxv < 0)
         return AS_OK;
@@ -522,6 +533,17 @@ static as_status pass_kekule(as_mol *m, as_error *err)
                 bad = i;
                 break;
             }
+        /* point at the usual culprit: a pyrrole-type n without its H in a five-membered
+         * ring, or an [nH] in a six-membered ring */
+        for (int i = 0; i < m->natoms; i++) {
+            const as_atom *x = &m->atoms[i];
+            if (!x->aromatic || x->elem != 7 || x->charge != 0 || x->degree != 2)
+                continue;
+            if ((x->total_h == 0 && x->ring_size == 5) || (x->total_h == 1 && x->ring_size == 6)) {
+                bad = i;
+                break;
+            }
+        }
         if (bad < 0)
             bad = 0;
         const as_atom *a = &m->atoms[bad];
@@ -581,7 +603,7 @@ static int pi_electrons(const as_mol *m, int i, const char *inring, const char *
         if (arom && arom[dbl_exo])
             return 1; /* double bond into a neighbouring aromatic ring */
         if (y->elem == 8 || y->elem == 7 || y->elem == 16)
-            return (a->elem == 6 || a->elem == 16 || a->elem == 15) ? 0 : -1;
+            return a->elem == 6 ? 0 : -1; /* C=O in pyridones, not S=O or P=O */
         return -1;
     }
     int z = a->elem - a->charge;
@@ -731,6 +753,31 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
 
 /* ---------------------------------------------------------------- pass: stereo */
 
+/* 1 when atom a is a bridgehead: it lies on two SSSR rings that share three or more atoms
+ * (a bridged, not merely fused, system), where an amine nitrogen cannot invert. */
+static int bridgehead(const as_mol *m, int a)
+{
+    for (int r1 = 0; r1 < m->nrings; r1++) {
+        int in1 = 0;
+        for (int k = m->ring_start[r1]; k < m->ring_start[r1 + 1]; k++)
+            in1 |= m->ring_atoms[k] == a;
+        if (!in1)
+            continue;
+        for (int r2 = r1 + 1; r2 < m->nrings; r2++) {
+            int in2 = 0, shared = 0;
+            for (int k = m->ring_start[r2]; k < m->ring_start[r2 + 1]; k++) {
+                int x = m->ring_atoms[k];
+                in2 |= x == a;
+                for (int j = m->ring_start[r1]; j < m->ring_start[r1 + 1]; j++)
+                    shared += m->ring_atoms[j] == x;
+            }
+            if (in2 && shared >= 3)
+                return 1;
+        }
+    }
+    return 0;
+}
+
 static as_status pass_stereo(as_mol *m, as_error *err)
 {
     (void)err;
@@ -742,13 +789,17 @@ static as_status pass_stereo(as_mol *m, as_error *err)
             nh += t->nbr[k] == AS_IMPLICIT_H;
         if (a->aromatic || a->total_h > 1 || nh > 1)
             keep = 0;
-        for (int k = 0; k < a->degree && keep; k++)
-            if (m->bonds[a->nbond[k]].order != AS_BOND_SINGLE)
+        /* P, S, Se centres may carry =O (sulfoxides, phosphonates); others all single */
+        int hyper = a->elem == 15 || a->elem == 16 || a->elem == 34;
+        for (int k = 0; k < a->degree && keep; k++) {
+            int o = m->bonds[a->nbond[k]].order;
+            if (o != AS_BOND_SINGLE && !(hyper && o == AS_BOND_DOUBLE))
                 keep = 0;
+        }
         if (keep && a->degree + a->total_h == 3) {
             /* lone-pair centres: keep S, P, Se and ring-strained N (aziridines) */
             if (a->elem == 7 && a->charge == 0)
-                keep = a->ring_size == 3;
+                keep = a->ring_size == 3 || bridgehead(m, t->center);
             else if (a->elem == 6)
                 keep = 0;
         } else if (keep && a->degree + a->total_h != 4) {

@@ -5,6 +5,7 @@
  * Every string of a rule borrows from the rule's cJSON document, which the rule keeps until
  * as_rules_free; arrays of variants, figures and hazards are separate allocations. */
 #include "addsite/rules.h"
+#include "addsite/smiles.h"
 #include "rules_int.h"
 
 #include <cjson/cJSON.h>
@@ -48,12 +49,35 @@ static const char *base_name(const char *name)
 /* path + ".key" or path + "[i]" into out */
 static void path_key(char *out, const char *path, const char *key)
 {
-    snprintf(out, MAX_PATH_TEXT, "%s.%s", path, key);
+    /* built piecewise so an over-long path is cut, never overrun */
+    size_t n = strlen(path);
+    if (n > MAX_PATH_TEXT - 1)
+        n = MAX_PATH_TEXT - 1;
+    memmove(out, path, n);
+    size_t k = strlen(key);
+    if (n + 1 + k > MAX_PATH_TEXT - 1)
+        k = n + 1 < MAX_PATH_TEXT - 1 ? MAX_PATH_TEXT - 2 - n : 0;
+    if (n + 1 < MAX_PATH_TEXT) {
+        out[n++] = '.';
+        memcpy(out + n, key, k);
+        n += k;
+    }
+    out[n] = '\0';
 }
 
 static void path_index(char *out, const char *path, int i)
 {
-    snprintf(out, MAX_PATH_TEXT, "%s[%d]", path, i);
+    char idx[16];
+    int w = snprintf(idx, sizeof idx, "[%d]", i);
+    size_t n = strlen(path);
+    if (n > MAX_PATH_TEXT - 1)
+        n = MAX_PATH_TEXT - 1;
+    memmove(out, path, n);
+    size_t k = w > 0 ? (size_t)w : 0;
+    if (n + k > MAX_PATH_TEXT - 1)
+        k = MAX_PATH_TEXT - 1 - n;
+    memcpy(out + n, idx, k);
+    out[n + k] = '\0';
 }
 
 static const char *json_type_name(const cJSON *v)
@@ -104,8 +128,9 @@ static int kind_ok(const cJSON *v, kind k)
     case K_BOOL: return cJSON_IsBool(v);
     case K_NUM: return cJSON_IsNumber(v);
     case K_INT:
-        return cJSON_IsNumber(v) && v->valuedouble == (double)(long)v->valuedouble &&
-               v->valuedouble >= -1e6 && v->valuedouble <= 1e6;
+        /* range first: casting an out-of-range double to long is undefined */
+        return cJSON_IsNumber(v) && v->valuedouble >= -1e6 && v->valuedouble <= 1e6 &&
+               v->valuedouble == (double)(long)v->valuedouble;
     case K_ARR: return cJSON_IsArray(v);
     case K_OBJ: return cJSON_IsObject(v);
     case K_STR_OR_NULL: return cJSON_IsNull(v) || (cJSON_IsString(v) && v->valuestring);
@@ -227,6 +252,7 @@ static void rule_free(as_rule_int *r)
                 }
                 free(v->sets);
             }
+            free(v->set_texts);
         }
         free(r->vi);
     }
@@ -281,6 +307,9 @@ static as_status compile_pattern(const vctx *c, const char *path, const char *pa
         return fail(c, path, "pattern \"%.60s\" does not compile at offset %lu: %s", pat,
                     (unsigned long)off, (const char *)msg);
     }
+    /* JIT when the PCRE2 build has it (matching then runs several times faster); without it
+     * pcre2_match falls back to the interpreter, so a failure here is not an error. */
+    (void)pcre2_jit_compile(re, PCRE2_JIT_COMPLETE);
     *out = re;
     return AS_OK;
 }
@@ -347,15 +376,48 @@ static as_status load_agents(const vctx *c, const cJSON *vobj, const char *path,
     if (n == 0)
         return AS_OK;
     vi->sets = calloc((size_t)n, sizeof *vi->sets);
-    if (!vi->sets)
+    vi->set_texts = calloc((size_t)n, sizeof *vi->set_texts);
+    if (!vi->sets || !vi->set_texts)
         return as_error_set(c->err, AS_ERR_NOMEM, -1, -1, "out of memory");
     int i = 0;
     for (const cJSON *e = arr->child; e; e = e->next, i++) {
         path_index(pi, p, i);
         if (!cJSON_IsString(e) || !e->valuestring[0])
             return fail(c, pi, "expected a SMILES string, found %s", json_type_name(e));
-        vi->sets[i].text = e->valuestring;
+        as_agent_set *set = &vi->sets[i];
+        set->text = e->valuestring;
+        vi->set_texts[i] = e->valuestring;
         vi->nsets++;
+        as_error se;
+        as_error_clear(&se);
+        as_status st = as_rules_canon_parts(set->text, strlen(set->text), &set->canon, &set->n,
+                                            &se);
+        if (st == AS_ERR_NOMEM)
+            return as_error_set(c->err, st, -1, -1, "out of memory");
+        if (st != AS_OK)
+            return fail(c, pi, "agent set \"%.40s\" is not valid SMILES at byte %ld: %s",
+                        set->text, se.offset, se.msg);
+    }
+    return AS_OK;
+}
+
+/* A product group or reagent formula must be readable SMILES. */
+static as_status check_smiles(const vctx *c, const char *path, const char *key, const char *smi)
+{
+    char p[MAX_PATH_TEXT];
+    if (!smi)
+        return AS_OK;
+    as_mol *m = NULL;
+    as_error se;
+    as_error_clear(&se);
+    as_status st = as_smiles_parse(smi, strlen(smi), &m, &se);
+    as_mol_free(m);
+    if (st == AS_ERR_NOMEM)
+        return as_error_set(c->err, st, -1, -1, "out of memory");
+    if (st != AS_OK) {
+        path_key(p, path, key);
+        return fail(c, p, "\"%.40s\" is not valid SMILES at byte %ld: %s", smi, se.offset,
+                    se.msg);
     }
     return AS_OK;
 }
@@ -398,13 +460,25 @@ static as_status load_variant(const vctx *c, const cJSON *vobj, const char *path
             return fail(c, path, "needs both \"first\" and \"second\" groups (or a \"bridge\")");
         }
     }
+    static const char *const group_keys[] = {"first", "second", "bridge", "reagent_smiles"};
+    const char *groups[] = {v->first, v->second, v->bridge, v->reagent_smiles};
+    for (int g = 0; g < 4; g++) {
+        st = check_smiles(c, path, group_keys[g], groups[g]);
+        if (st != AS_OK)
+            return st;
+    }
     st = compile_list(c, vobj, path, "patterns", 1, &vi->pats, &vi->npats);
     if (st != AS_OK)
         return st;
     st = compile_list(c, vobj, path, "unless", 0, &vi->unless, &vi->nunless);
     if (st != AS_OK)
         return st;
-    return load_agents(c, vobj, path, vi);
+    st = load_agents(c, vobj, path, vi);
+    if (st != AS_OK)
+        return st;
+    v->nagents = vi->nsets;
+    v->agents = vi->set_texts;
+    return AS_OK;
 }
 
 static const keyspec figure_spec[] = {
@@ -442,6 +516,9 @@ static as_status load_figure(const vctx *c, const cJSON *fobj, const char *path,
         return fail(c, p, "%g is outside 0..100", f->percent);
     }
     f->example = get_str(fobj, "example");
+    st = check_smiles(c, path, "example", f->example);
+    if (st != AS_OK)
+        return st;
     f->source = get_str(fobj, "source");
     return AS_OK;
 }
@@ -630,24 +707,43 @@ as_status as_rules_add_json(as_rules **tab, const char *name, const char *json, 
     if (!tab || !name || (!json && len))
         return as_error_set(err, AS_ERR_ARG, -1, -1, "as_rules_add_json: NULL argument");
     vctx c = {base_name(name), err};
-    if (memchr(json, '\0', len))
-        return as_error_set(err, AS_ERR_ENCODING, (long)((const char *)memchr(json, '\0', len) -
-                                                         json), -1,
-                            "%s: NUL byte in a rule file", c.file);
+    if (!json)
+        json = "";
+    const char *nul = memchr(json, '\0', len);
+    if (nul)
+        return as_error_set(err, AS_ERR_ENCODING, (long)(nul - json), -1,
+                            "%s: NUL byte at offset %ld of a rule file", c.file,
+                            (long)(nul - json));
+    /* A UTF-8 byte-order mark (some editors write one) is skipped; it takes no column. */
+    long skip = 0;
+    if (len >= 3 && memcmp(json, "\xEF\xBB\xBF", 3) == 0) {
+        json += 3;
+        len -= 3;
+        skip = 3;
+    }
     const char *end = NULL;
-    cJSON *doc = cJSON_ParseWithLengthOpts(json ? json : "", len, &end, 0);
+    cJSON *doc = cJSON_ParseWithLengthOpts(json, len, &end, 0);
     if (!doc) {
         size_t at = end && end >= json && end <= json + len ? (size_t)(end - json) : len;
         long line = 0, col = 0;
-        line_col(json ? json : "", at, &line, &col);
+        line_col(json, at, &line, &col);
         if (at >= len)
-            as_error_set(err, AS_ERR_RULE, (long)at, -1,
+            as_error_set(err, AS_ERR_RULE, (long)at + skip, -1,
                          "%s:%ld:%ld: JSON syntax error: the text ends too early", c.file, line,
                          col);
-        else
-            as_error_set(err, AS_ERR_RULE, (long)at, -1,
-                         "%s:%ld:%ld: JSON syntax error near '%.12s'", c.file, line, col,
+        else {
+            /* quote at most 12 bytes, within the buffer and the line */
+            int show = 0;
+            while (show < 12 && at + (size_t)show < len && json[at + (size_t)show] != '\n' &&
+                   json[at + (size_t)show] != '\r')
+                show++;
+            while (show > 0 && at + (size_t)show < len &&
+                   ((unsigned char)json[at + (size_t)show] & 0xC0) == 0x80)
+                show--;   /* do not cut a UTF-8 sequence */
+            as_error_set(err, AS_ERR_RULE, (long)at + skip, -1,
+                         "%s:%ld:%ld: JSON syntax error near '%.*s'", c.file, line, col, show,
                          json + at);
+        }
         if (err) {
             err->line = line;
             err->column = col;
@@ -662,7 +758,7 @@ as_status as_rules_add_json(as_rules **tab, const char *name, const char *json, 
         long line = 0, col = 0;
         line_col(json, (size_t)(q - json), &line, &col);
         cJSON_Delete(doc);
-        as_error_set(err, AS_ERR_RULE, (long)(q - json), -1,
+        as_error_set(err, AS_ERR_RULE, (long)(q - json) + skip, -1,
                      "%s:%ld:%ld: JSON syntax error: text after the end of the rule object",
                      c.file, line, col);
         if (err) {

@@ -12,6 +12,10 @@
 #include "addsite/rules.h"
 #include "status_int.h"
 
+/* Longest reagent text as_rules_recognise accepts, bytes (a reagent column is a line, not a
+ * document; the limit keeps matching time bounded). */
+#define AS_REAGENT_TEXT_MAX 4096
+
 /* One rule file compiled into the library by cmake/rules_embed.cmake (the generated
  * rules_embedded.c defines the array, sorted by name). */
 typedef struct as_rules_blob {
@@ -39,6 +43,7 @@ typedef struct as_variant_int {
     int nunless;
     as_agent_set *sets;
     int nsets;
+    const char **set_texts;   /* owned array, strings borrow the JSON document */
 } as_variant_int;
 
 /* A near miss: text that names the rule's reagent but not enough of it to pick a product. */
@@ -76,6 +81,12 @@ struct as_rules {
  * is left. */
 AS_INTERNAL as_status as_rules_normalise(const char *text, size_t len, char **out,
                                          as_error *err);
+
+/* Canonical SMILES of each component of the SMILES text (atom maps and stereo marks
+ * dropped): new array of new strings in *parts (caller frees each and the array), *n set.
+ * Errors are those of the SMILES reader (err->offset into text). */
+AS_INTERNAL as_status as_rules_canon_parts(const char *text, size_t len, char ***parts, int *n,
+                                           as_error *err);
 
 /* The installed rule directory compiled in (AS_RULES_DIR), or NULL when none was set. */
 AS_INTERNAL const char *as_rules_default_dir(void);

@@ -2,6 +2,8 @@
  * Owns: text normalisation, pattern matching with rule priorities, temperature and
  * equivalents found in the text, agent-set comparison. Must not: build molecules or change
  * the table (it is read-only and shared by threads; match data is made per call). */
+#include "addsite/canon.h"
+#include "addsite/perceive.h"
 #include "addsite/rules.h"
 #include "rules_int.h"
 
@@ -164,6 +166,8 @@ as_status as_rules_init_extras(as_rules *t, as_error *err)
     if (!t->temp_re || !t->equiv_re)
         return as_error_set(err, AS_ERR_NOMEM, -1, -1,
                             "could not compile the built-in temperature patterns");
+    (void)pcre2_jit_compile(t->temp_re, PCRE2_JIT_COMPLETE);   /* optional speed-up */
+    (void)pcre2_jit_compile(t->equiv_re, PCRE2_JIT_COMPLETE);
     return AS_OK;
 }
 
@@ -248,6 +252,10 @@ as_status as_rules_recognise(const as_rules *t, const char *text, size_t len,
         return as_error_set(err, AS_ERR_ARG, -1, -1, "as_rules_recognise: NULL argument");
     memset(out, 0, sizeof *out);
     out->temp_c = NAN;
+    if (len > AS_REAGENT_TEXT_MAX)
+        return as_error_set(err, AS_ERR_LIMIT, (long)AS_REAGENT_TEXT_MAX, -1,
+                            "reagent text of %lu bytes is longer than the %d accepted",
+                            (unsigned long)len, AS_REAGENT_TEXT_MAX);
     char *s = NULL;
     as_status st = as_rules_normalise(text, len, &s, err);
     if (st != AS_OK)
@@ -260,7 +268,7 @@ as_status as_rules_recognise(const as_rules *t, const char *text, size_t len,
     }
 
     const as_rule_int *best = NULL;
-    int best_var = -1, tie = -1;
+    int best_var = -1, tie = -1, tie_var = -1;
     for (int i = 0; i < t->n; i++) {
         const as_rule_int *r = t->rules[i];
         if (any_match(r->unless, r->nunless, s, n, md))
@@ -280,6 +288,7 @@ as_status as_rules_recognise(const as_rules *t, const char *text, size_t len,
             tie = -1;
         } else if (r->priority == best->priority && tie < 0) {
             tie = i;
+            tie_var = hit;
         }
     }
 
@@ -289,17 +298,7 @@ as_status as_rules_recognise(const as_rules *t, const char *text, size_t len,
                           "reagents \"%.60s\" are ambiguous: they match %s (%s) and %s (%s) "
                           "equally; name one reagent set or pass the rule id",
                           s, best->pub.id, best->vars[best_var].name, o->pub.id,
-                          o->vars[0].name);
-        /* name the variant of the competitor that matched */
-        for (int v = 0; v < o->pub.nvariants; v++)
-            if (any_match(o->vi[v].pats, o->vi[v].npats, s, n, md)) {
-                as_error_set(err, AS_ERR_REAGENT, -1, -1,
-                             "reagents \"%.60s\" are ambiguous: they match %s (%s) and %s "
-                             "(%s) equally; name one reagent set or pass the rule id",
-                             s, best->pub.id, best->vars[best_var].name, o->pub.id,
-                             o->vars[v].name);
-                break;
-            }
+                          o->vars[tie_var].name);
     } else if (!best) {
         const char *hint = NULL;
         for (int i = 0; i < t->n && !hint; i++)
@@ -331,5 +330,185 @@ as_status as_rules_recognise(const as_rules *t, const char *text, size_t len,
     }
     pcre2_match_data_free(md);
     free(s);
+    return st;
+}
+
+/* ---------------------------------------------------------------- agent recognition */
+
+static void free_parts(char **parts, int n)
+{
+    if (!parts)
+        return;
+    for (int i = 0; i < n; i++)
+        free(parts[i]);
+    free(parts);
+}
+
+/* Splits a canonical SMILES at its '.' separators (the writer puts '.' only between
+ * components, never inside brackets or ring bonds). Takes ownership of canon. */
+static as_status split_canon(char *canon, char ***parts, int *n, as_error *err)
+{
+    int k = 1;
+    for (const char *q = canon; *q; q++)
+        k += *q == '.';
+    *parts = NULL;
+    *n = 0;
+    if (!canon[0]) {
+        free(canon);
+        return AS_OK;
+    }
+    char **v = calloc((size_t)k, sizeof *v);
+    if (!v) {
+        free(canon);
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    }
+    int i = 0;
+    for (char *tok = canon;; i++) {
+        char *dot = strchr(tok, '.');
+        size_t l = dot ? (size_t)(dot - tok) : strlen(tok);
+        v[i] = malloc(l + 1);
+        if (!v[i]) {
+            free_parts(v, i);
+            free(canon);
+            return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+        }
+        memcpy(v[i], tok, l);
+        v[i][l] = '\0';
+        if (!dot)
+            break;
+        tok = dot + 1;
+    }
+    free(canon);
+    *parts = v;
+    *n = i + 1;
+    return AS_OK;
+}
+
+static void identity_opts(as_canon_opts *o)
+{
+    as_canon_opts_init(o);
+    o->atom_maps = 0;   /* agents are compared without atom maps ... */
+    o->stereo = 0;      /* ... and without stereo marks (disiamylborane is a mixture) */
+}
+
+as_status as_rules_canon_parts(const char *text, size_t len, char ***parts, int *n,
+                               as_error *err)
+{
+    as_canon_opts o;
+    identity_opts(&o);
+    char *canon = NULL;
+    *parts = NULL;
+    *n = 0;
+    as_status st = as_canon_from_text(text, len, &o, &canon, err);
+    if (st != AS_OK)
+        return st;
+    return split_canon(canon, parts, n, err);
+}
+
+static int has_part(char *const *parts, int n, const char *s)
+{
+    for (int i = 0; i < n; i++)
+        if (strcmp(parts[i], s) == 0)
+            return 1;
+    return 0;
+}
+
+as_status as_rules_recognise_agents(const as_rules *t, const as_mol *agents,
+                                    as_reagent_match *out, as_error *err)
+{
+    as_error_clear(err);
+    if (!t || !agents || !out)
+        return as_error_set(err, AS_ERR_ARG, -1, -1,
+                            "as_rules_recognise_agents: NULL argument");
+    memset(out, 0, sizeof *out);
+    out->temp_c = NAN;
+    if (agents->natoms == 0)
+        return as_error_set(err, AS_ERR_EMPTY, -1, -1, "no agent molecules given");
+
+    /* Canonical SMILES of the agents; an unperceived molecule is perceived on a copy. */
+    as_canon_opts o;
+    identity_opts(&o);
+    char *canon = NULL;
+    as_status st;
+    if (agents->perceived) {
+        st = as_canon_smiles(agents, &o, &canon, err);
+    } else {
+        as_mol *c = as_mol_copy(agents);
+        if (!c)
+            return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+        st = as_perceive(c, AS_PASS_ALL, NULL, err);
+        if (st == AS_OK)
+            st = as_canon_smiles(c, &o, &canon, err);
+        as_mol_free(c);
+    }
+    if (st != AS_OK)
+        return st;
+    char *shown = strdup(canon);   /* for the error message */
+    if (!shown) {
+        free(canon);
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    }
+    char **parts = NULL;
+    int np = 0;
+    st = split_canon(canon, &parts, &np, err);
+    if (st != AS_OK) {
+        free(shown);
+        return st;
+    }
+
+    /* Best rule: highest priority, then the larger (more specific) matching set. */
+    const as_rule_int *best = NULL, *tie = NULL;
+    int best_var = -1, best_size = 0, tie_var = -1;
+    for (int i = 0; i < t->n; i++) {
+        const as_rule_int *r = t->rules[i];
+        int hit = -1, size = 0;
+        for (int v = 0; v < r->pub.nvariants; v++)
+            for (int k = 0; k < r->vi[v].nsets; k++) {
+                const as_agent_set *set = &r->vi[v].sets[k];
+                int all = set->n > 0;
+                for (int j = 0; j < set->n && all; j++)
+                    all = has_part(parts, np, set->canon[j]);
+                if (all && set->n > size) {
+                    hit = v;
+                    size = set->n;
+                }
+            }
+        if (hit < 0)
+            continue;
+        if (!best || r->priority > best->priority ||
+            (r->priority == best->priority && size > best_size)) {
+            best = r;
+            best_var = hit;
+            best_size = size;
+            tie = NULL;
+        } else if (r->priority == best->priority && size == best_size && !tie) {
+            tie = r;
+            tie_var = hit;
+        }
+    }
+    if (best && tie) {
+        st = as_error_set(err, AS_ERR_REAGENT, -1, -1,
+                          "agents %.60s are ambiguous: they match %s (%s) and %s (%s) equally; "
+                          "pass the reagents as text or the rule id",
+                          shown, best->pub.id, best->vars[best_var].name, tie->pub.id,
+                          tie->vars[tie_var].name);
+    } else if (!best) {
+        static const char lead[] = "not recognised; rules: ";
+        char ids[sizeof err->msg - sizeof lead + 1];
+        list_ids(t, ids, sizeof ids);
+        int room = (int)(sizeof err->msg) - (int)sizeof lead - 12 - (int)strlen(ids);
+        int cut = (int)strlen(shown) > room;
+        if (room >= 8)
+            st = as_error_set(err, AS_ERR_REAGENT, -1, -1, "agents %.*s%s %s%s",
+                              cut ? room - 3 : room, shown, cut ? "…" : "", lead, ids);
+        else
+            st = as_error_set(err, AS_ERR_REAGENT, -1, -1, "agents %s%s", lead, ids);
+    } else {
+        out->rule = &best->pub;
+        out->variant = &best->vars[best_var];
+        st = AS_OK;
+    }
+    free_parts(parts, np);
+    free(shown);
     return st;
 }

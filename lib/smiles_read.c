@@ -152,6 +152,18 @@ static as_status read_organic(parser *p, atom_spec *a)
     case 'p': a->elem = 15; a->aromatic = 1; break;
     case 's': a->elem = 16; a->aromatic = 1; break;
     default: {
+        if (islower((unsigned char)c)) {
+            /* "Na", "Fe": an element written without brackets */
+            if (p->pos > 0 && isupper((unsigned char)p->s[p->pos - 1])) {
+                char el[3] = {p->s[p->pos - 1], c, 0};
+                if (as_element_number(el, 2) > 0)
+                    return fail(p, AS_ERR_ELEMENT, (long)p->pos - 1,
+                                "'%s' is not in the organic subset; write it in brackets",
+                                el);
+            }
+            char one[2] = {c, 0};
+            return fail(p, AS_ERR_ELEMENT, (long)p->pos, "'%s' is not an atom symbol", one);
+        }
         char tok[3] = {c, 0, 0};
         if (isupper((unsigned char)c) && left > 1 && islower((unsigned char)s[1]))
             tok[1] = s[1];
@@ -356,7 +368,7 @@ static int bond_order_of(char c)
 static as_status make_bond(parser *p, int a, int b, int order, char dir, int dir_from,
                            long dir_off, long offset)
 {
-    if (order == 0)
+    if (order <= 0)
         order = (p->m->atoms[a].aromatic && p->m->atoms[b].aromatic) ? AS_BOND_AROMATIC
                                                                       : AS_BOND_SINGLE;
     if (p->m->atoms[a].degree >= AS_MAX_DEGREE || p->m->atoms[b].degree >= AS_MAX_DEGREE)
@@ -387,9 +399,10 @@ static as_status build_tetra(parser *p)
         for (int k = 0; k < n; k++)
             hs += items[k] == AS_IMPLICIT_H;
         if (n == 3 && hs == 0) {
-            /* Lone pair (sulfoxide, phosphine, amine): it stands where an implicit H would,
-             * right after the atom we came from (first when the atom opens the SMILES). */
-            int pos = o->has_from ? 1 : 0;
+            /* Lone pair (sulfoxide, phosphine, amine): it takes the second place, right
+             * after the atom we came from or, when the atom opens the SMILES, after its
+             * first written neighbour (the reading RDKit and most toolkits share). */
+            int pos = 1;
             memmove(&items[pos + 1], &items[pos], (size_t)(n - pos) * sizeof(int));
             items[pos] = AS_IMPLICIT_H;
             n = 4;
@@ -423,6 +436,7 @@ static as_status build_dbstereo(parser *p)
         if (b->order != AS_BOND_DOUBLE)
             continue;
         int ends[2] = {b->a, b->b}, ref[2] = {-1, -1}, side[2] = {0, 0};
+        long conflict = -1;
         for (int e = 0; e < 2; e++) {
             const as_atom *u = &m->atoms[ends[e]];
             for (int j = 0; j < u->degree; j++) {
@@ -433,16 +447,18 @@ static as_status build_dbstereo(parser *p)
                 if (ref[e] < 0) {
                     ref[e] = u->nbr[j];
                     side[e] = s;
-                } else if (s == side[e]) {
-                    return fail(p, AS_ERR_STEREO, p->bond_dir_off[bk],
-                                "conflicting / \\ marks: two neighbours on the same side of "
-                                "one double-bond atom%s",
-                                "");
+                } else if (s == side[e] && conflict < 0) {
+                    conflict = p->bond_dir_off[bk];
                 }
             }
         }
         if (ref[0] < 0 || ref[1] < 0)
-            continue; /* one side unmarked: no geometry */
+            continue; /* one side unmarked: no geometry (marks may serve another bond) */
+        if (conflict >= 0)
+            return fail(p, AS_ERR_STEREO, conflict,
+                        "conflicting / \\ marks: two neighbours on the same side of one "
+                        "double-bond atom%s",
+                        "");
         as_dbstereo d = {k, ref[0], ref[1], side[0] == side[1]};
         if (as_mol_add_dbstereo(m, &d) < 0)
             return fail(p, AS_ERR_NOMEM, -1, "out of memory%s", "");
@@ -479,6 +495,11 @@ static as_status parse_body(parser *p)
         long off = (long)p->pos;
         if (c == '\0')
             return fail(p, AS_ERR_ENCODING, off, "NUL byte in the SMILES%s", "");
+        if ((unsigned char)c < 0x20 || c == 0x7f) {
+            char tok[8];
+            snprintf(tok, sizeof tok, "0x%02x", (unsigned char)c);
+            return fail(p, AS_ERR_ENCODING, off, "control byte %s in the SMILES", tok);
+        }
         if ((unsigned char)c >= 0x80)
             return fail(p, AS_ERR_ENCODING, off,
                         "non-ASCII byte in the SMILES (only ASCII is valid)%s", "");
@@ -526,8 +547,9 @@ static as_status parse_body(parser *p)
             if (prev < 0)
                 return as_error_set(p->err, AS_ERR_SYNTAX, off, -1,
                                     "bond '%c' has no atom before it", c);
-            pending_order = bond_order_of(c);
             pending_dir = (c == '/' || c == '\\') ? c : 0;
+            /* a / \\ mark leaves the order open: single, or aromatic between aromatic atoms */
+            pending_order = pending_dir ? -1 : bond_order_of(c);
             pending_off = off;
             p->pos++;
             continue;
@@ -569,9 +591,15 @@ static as_status parse_body(parser *p)
                     return fail(p, AS_ERR_RING, off,
                                 "ring bond duplicates a bond that already joins these atoms%s",
                                 "");
-                int order = r->order, o2 = pending_order;
-                if (order && o2 && order != o2)
-                    return fail(p, AS_ERR_RING, off,
+                int order = r->order > 0 ? r->order : 0, o2 = pending_order > 0 ? pending_order : 0;
+                /* a / \\ mark stands for a single (or aromatic) bond */
+                int o1x = r->order < 0 ? AS_BOND_SINGLE : order, o2x = pending_order < 0 ? AS_BOND_SINGLE : o2;
+                if ((r->order < 0 && o2 > AS_BOND_SINGLE && o2 != AS_BOND_AROMATIC) ||
+                    (pending_order < 0 && order > AS_BOND_SINGLE && order != AS_BOND_AROMATIC))
+                    o1x = -1;
+                (void)o2x;
+                if ((order && o2 && order != o2) || o1x < 0)
+                    return fail(p, AS_ERR_RING, pending_off >= 0 ? pending_off : off,
                                 "the two ends of this ring bond give different bond orders%s",
                                 "");
                 if (!order)
@@ -610,7 +638,7 @@ static as_status parse_body(parser *p)
             continue;
         }
         if (c == '(') {
-            if (prev < 0)
+            if (prev < 0 || branch_empty)
                 return fail(p, AS_ERR_BRANCH, off, "branch '(' with no atom before it%s", "");
             if (pending_order)
                 return fail(p, AS_ERR_SYNTAX, pending_off, "bond symbol before '('%s", "");
@@ -678,7 +706,7 @@ static as_status parse_body(parser *p)
                 first = p->rings[i].offset;
                 num = i;
             }
-        char tok[8];
+        char tok[16];
         snprintf(tok, sizeof tok, "%d", num);
         return fail(p, AS_ERR_RING, first, "ring bond %s opened here is never closed", tok);
     }
@@ -800,7 +828,7 @@ as_status as_reaction_parse(const char *text, size_t len, as_reaction **out, as_
         }
     }
     if (nsep != 2)
-        return as_error_set(err, AS_ERR_REACTION, (long)end, -1,
+        return as_error_set(err, AS_ERR_REACTION, nsep ? (long)sep[nsep - 1] : (long)end, -1,
                             "a reaction SMILES needs two '>' (reactants>agents>products); "
                             "found %d",
                             nsep);

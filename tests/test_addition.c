@@ -15,14 +15,14 @@
 #include "addsite/sites.h"
 #include "addsite/smiles.h"
 
-static const as_rule_variant v_hbr = {"HBr", "[H]", "Br", NULL, NULL, "Br"};
-static const as_rule_variant v_hcl = {"HCl", "[H]", "Cl", NULL, NULL, "Cl"};
-static const as_rule_variant v_rbr = {"HBr/ROOR", "Br", "[H]", NULL, NULL, "Br"};
-static const as_rule_variant v_bh3 = {"BH3", "O", "[H]", NULL, NULL, "O"};
-static const as_rule_variant v_br2 = {"Br2", "Br", "Br", NULL, NULL, "BrBr"};
-static const as_rule_variant v_os = {"OsO4", "O", "O", NULL, NULL, "OO"};
-static const as_rule_variant v_epox = {"mCPBA", NULL, NULL, "O", NULL, "[O]"};
-static const as_rule_variant v_bad = {"bad", "[H]", "C1CC", NULL, NULL, NULL};
+static const as_rule_variant v_hbr = {"HBr", "[H]", "Br", NULL, NULL, "Br", 0, NULL};
+static const as_rule_variant v_hcl = {"HCl", "[H]", "Cl", NULL, NULL, "Cl", 0, NULL};
+static const as_rule_variant v_rbr = {"HBr/ROOR", "Br", "[H]", NULL, NULL, "Br", 0, NULL};
+static const as_rule_variant v_bh3 = {"BH3", "O", "[H]", NULL, NULL, "O", 0, NULL};
+static const as_rule_variant v_br2 = {"Br2", "Br", "Br", NULL, NULL, "BrBr", 0, NULL};
+static const as_rule_variant v_os = {"OsO4", "O", "O", NULL, NULL, "OO", 0, NULL};
+static const as_rule_variant v_epox = {"mCPBA", NULL, NULL, "O", NULL, "[O]", 0, NULL};
+static const as_rule_variant v_bad = {"bad", "[H]", "C1CC", NULL, NULL, NULL, 0, NULL};
 
 static as_rule rule(as_regio regio, as_addmode stereo, int shifts, int conjugate,
                     const as_rule_variant *v)

@@ -16,6 +16,7 @@
 #include <sys/stat.h>
 
 #include "addsite/rules.h"
+#include "addsite/smiles.h"
 #include "rules_int.h"
 
 /* ---------------------------------------------------------------- helpers */
@@ -148,6 +149,9 @@ static void rules_embedded_copy_should_agree_with_the_source_dir(void **state)
             assert_true(same_str(p->bridge, q->bridge));
             assert_true(same_str(p->workup, q->workup));
             assert_true(same_str(p->reagent_smiles, q->reagent_smiles));
+            assert_int_equal(p->nagents, q->nagents);
+            for (int k = 0; k < p->nagents; k++)
+                assert_string_equal(p->agents[k], q->agents[k]);
         }
         assert_int_equal(x->nfigures, y->nfigures);
         for (int f = 0; f < x->nfigures; f++) {
@@ -404,6 +408,13 @@ static void rules_should_list_the_table_when_nothing_is_recognised(void **state)
     assert_contains(err.msg, "hydroboration_9bbn");
     assert_contains(err.msg, "ozonolysis");
     assert_contains(err.msg, "syn_dihydroxylation");   /* the last id still fits */
+    /* a variant veto: hot or acidic permanganate cleaves the C=C instead */
+    const char *hot = "KMnO4, H2SO4, heat";
+    assert_int_equal(as_rules_recognise(t, hot, strlen(hot), &m, &err), AS_ERR_REAGENT);
+    /* a rule veto: "no peroxide" keeps HBr with the ionic rule even when peroxides appear */
+    const char *ionic = "HBr, no peroxides";
+    assert_int_equal(as_rules_recognise(t, ionic, strlen(ionic), &m, &err), AS_OK);
+    assert_string_equal(m.rule->id, "hx");
     /* NBS alone is allylic bromination, not an addition in this table */
     assert_int_equal(as_rules_recognise(t, "NBS, CCl4, hv", 13, &m, &err), AS_ERR_REAGENT);
     as_rules_free(t);
@@ -459,6 +470,16 @@ static void rules_should_refuse_blank_and_malformed_text(void **state)
     assert_int_equal(as_rules_recognise(t, "HBr \xe2\x82", 6, &m, &err), AS_ERR_ENCODING);
     assert_int_equal(err.offset, 4);
     assert_int_equal(as_rules_recognise(NULL, "HBr", 3, &m, &err), AS_ERR_ARG);
+    /* a whole document is not a reagent text; the longest accepted one still works */
+    char *big = malloc(AS_REAGENT_TEXT_MAX + 2);
+    assert_non_null(big);
+    memset(big, ' ', AS_REAGENT_TEXT_MAX + 1);
+    memcpy(big + AS_REAGENT_TEXT_MAX - 3, "HBr", 3);
+    assert_int_equal(as_rules_recognise(t, big, AS_REAGENT_TEXT_MAX + 1, &m, &err),
+                     AS_ERR_LIMIT);
+    assert_int_equal(as_rules_recognise(t, big, AS_REAGENT_TEXT_MAX, &m, &err), AS_OK);
+    assert_string_equal(m.rule->id, "hx");
+    free(big);
     /* only len bytes are read: "HBr" inside a longer buffer */
     assert_int_equal(as_rules_recognise(t, "HBrXYZ", 3, &m, &err), AS_OK);
     assert_string_equal(m.rule->id, "hx");
@@ -602,6 +623,15 @@ static void rules_loader_should_give_line_and_column_of_a_syntax_error(void **st
     assert_int_equal(as_rules_add_json(&t, "two.json", "{}\n{}", 5, &err), AS_ERR_RULE);
     assert_int_equal(err.line, 2);
     assert_int_equal(err.column, 1);
+    /* a byte-order mark is skipped and takes no column */
+    assert_int_equal(as_rules_add_json(&t, "bom.json", "\xEF\xBB\xBF{,}", 6, &err),
+                     AS_ERR_RULE);
+    assert_int_equal(err.line, 1);
+    assert_true(err.offset >= 4);                 /* byte offsets count the mark ... */
+    assert_int_equal(err.column, err.offset - 2); /* ... columns do not */
+    assert_int_equal(as_rules_add_json(&t, "nul.json", "{\0}", 3, &err), AS_ERR_ENCODING);
+    assert_int_equal(err.offset, 1);
+    assert_int_equal(as_rules_add_json(&t, "empty.json", NULL, 0, &err), AS_ERR_RULE);
     assert_int_equal(as_rules_add_json(&t, "list.json", "[1]", 3, &err), AS_ERR_RULE);
     assert_contains(err.msg, "list.json: $: expected an object, found an array");
     assert_null(t);
@@ -622,6 +652,176 @@ static void rules_load_dir_should_reject_a_duplicate_id_across_files(void **stat
     free(dir);
     assert_int_equal(as_rules_load_dir("no/such/dir", &t, &err), AS_ERR_IO);
     assert_contains(err.msg, "no/such/dir");
+}
+
+static void rules_loader_should_reject_an_agent_set_that_is_not_smiles(void **state)
+{
+    (void)state;
+    expect_bad_file("tests/data/rules/bad_agent.json",
+                    "bad_agent.json: $.variants[0].agents[1]: agent set \"C1CC\" is not valid "
+                    "SMILES", NULL);
+}
+
+static void rules_loader_should_reject_a_product_group_that_is_not_smiles(void **state)
+{
+    (void)state;
+    expect_bad_file("tests/data/rules/bad_group_smiles.json",
+                    "bad_group_smiles.json: $.variants[0].second: \"B(r\" is not valid SMILES",
+                    NULL);
+}
+
+/* Bad input gets an error value, never a crash: every truncation of a real rule file and
+ * a few thousand byte substitutions (fixed seed) either load or fail with a rule/encoding
+ * error. Run under AddressSanitizer this also checks that failures free everything. */
+static void rules_loader_should_survive_truncated_and_mutated_files(void **state)
+{
+    (void)state;
+    char *path = path_of("reactions/hbr_radical.json");
+    size_t len = 0;
+    char *json = slurp(path, &len);
+    int ok = 0;
+    for (size_t cut = 0; cut <= len; cut++) {
+        as_rules *t = NULL;
+        as_error err;
+        as_status st = as_rules_add_json(&t, "cut.json", json, cut, &err);
+        assert_true(st == AS_OK || st == AS_ERR_RULE);
+        assert_true(st != AS_ERR_RULE || (err.msg[0] && !t));
+        ok += st == AS_OK;
+        as_rules_free(t);
+    }
+    /* only the whole file and the file without (part of) its final newline load */
+    assert_true(ok >= 1 && ok <= 2);
+    char *copy = malloc(len);
+    assert_non_null(copy);
+    static const char alphabet[] = "{}[]\",:0-9 \\e.(?nul\x01\xc3\xff";
+    unsigned long seed = 12345;
+    for (int k = 0; k < 3000; k++) {
+        memcpy(copy, json, len);
+        for (int j = 0; j < 1 + k % 3; j++) {
+            seed = seed * 6364136223846793005UL + 1442695040888963407UL;
+            size_t at = (size_t)(seed >> 33) % len;
+            copy[at] = alphabet[(seed >> 17) % (sizeof alphabet - 1)];
+        }
+        as_rules *t = NULL;
+        as_error err;
+        as_status st = as_rules_add_json(&t, "mutated.json", copy, len, &err);
+        assert_true(st == AS_OK || st == AS_ERR_RULE || st == AS_ERR_ENCODING);
+        as_rules_free(t);
+    }
+    free(copy);
+    free(json);
+    free(path);
+}
+
+/* ---------------------------------------------------------------- agent recognition */
+
+static as_status recognise_smiles(const as_rules *t, const char *smi, as_reagent_match *m,
+                                  as_error *err)
+{
+    as_mol *mol = NULL;
+    as_status st = as_smiles_parse(smi, strlen(smi), &mol, err);
+    if (st != AS_OK)
+        fail_msg("test SMILES %s: %s", smi, err->msg);
+    st = as_rules_recognise_agents(t, mol, m, err);
+    as_mol_free(mol);
+    return st;
+}
+
+static void rules_should_recognise_agent_sets_from_reaction_smiles(void **state)
+{
+    (void)state;
+    as_rules *t = load_source_table();
+    /* agent sets as they appear in reaction SMILES (common practice in reaction data):
+     * solvents and counter-ions may come along, atom maps and component order do not
+     * matter */
+    static const char *const cases[][3] = {
+        {"B.C1CCOC1", "hydroboration", "BH3; H2O2/NaOH"},
+        {"B.OO.[Na+].[OH-]", "hydroboration", "BH3; H2O2/NaOH"},
+        {"C[S+](C)[BH3-]", "hydroboration", "BH3; H2O2/NaOH"},
+        {"C1CCOC1.B1C2CCCC1CCC2", "hydroboration_9bbn", "9-BBN; H2O2/NaOH"},
+        {"CC(C)C(C)BC(C)C(C)C.OO.[OH-].[Na+]", "hydroboration_sia2bh", "Sia2BH; H2O2/NaOH"},
+        {"CC(=O)O[Hg]OC(C)=O.O", "oxymercuration", "Hg(OAc)2/H2O; NaBH4"},
+        {"O.CC(=O)O[Hg]OC(C)=O.[BH4-].[Na+].C1CCOC1", "oxymercuration", "Hg(OAc)2/H2O; NaBH4"},
+        {"CC(=O)O[Hg]OC(C)=O.CO.[BH4-].[Na+]", "alkoxymercuration", "Hg(II)/MeOH; NaBH4"},
+        {"Br", "hx", "HBr"},
+        {"[BrH:4]", "hx", "HBr"},
+        {"Cl", "hx", "HCl"},
+        {"I", "hx", "HI"},
+        {"Br.OO", "hbr_radical", "HBr/ROOR"},
+        {"CC(C)(C)OOC(C)(C)C.Br", "hbr_radical", "HBr/ROOR"},
+        {"O.OS(=O)(=O)O", "acid_hydration", "H2O/H2SO4"},
+        {"BrBr", "halogenation", "Br2"},
+        {"ClCl.ClCCl", "halogenation", "Cl2"},
+        {"BrBr.O", "halohydrin", "Br2/H2O"},
+        {"O=C1CCC(=O)N1Br.O.CS(C)=O", "halohydrin", "NBS/H2O"},
+        {"OOC(=O)c1cccc(Cl)c1.ClCCl", "epoxidation", "mCPBA"},
+        {"CC(=O)OO", "epoxidation", "peracetic acid"},
+        {"O=[Os](=O)(=O)=O.C[N+]1([O-])CCOCC1", "syn_dihydroxylation", "OsO4/NMO"},
+        {"[H][H].[Pd]", "hydrogenation", "H2/Pd"},
+        {"[Pt].[H][H].CC(=O)O", "hydrogenation", "H2/Pt"},
+        {"[O-][O+]=O.CSC", "ozonolysis", "O3; Me2S"},
+        {"O=[O+][O-].[Zn]", "ozonolysis", "O3; Zn"},
+        {"[O-][O+]=O.OO", "ozonolysis", "O3; H2O2"},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        as_reagent_match m;
+        as_error err;
+        as_status st = recognise_smiles(t, cases[i][0], &m, &err);
+        if (st != AS_OK)
+            fail_msg("agents %s: %s", cases[i][0], err.msg);
+        if (strcmp(m.rule->id, cases[i][1]) != 0 || strcmp(m.variant->name, cases[i][2]) != 0)
+            fail_msg("agents %s: got %s / %s, want %s / %s", cases[i][0], m.rule->id,
+                     m.variant->name, cases[i][1], cases[i][2]);
+        assert_int_equal(m.has_temp, 0);
+    }
+
+    /* the sets are listed on the variant as written in the file */
+    const as_rule_variant *hb = &as_rules_find(t, "hydroboration")->variants[0];
+    assert_true(hb->nagents >= 2);
+    assert_string_equal(hb->agents[0], "B");
+    assert_int_equal(as_rules_find(t, "epoxidation")->variants[2].nagents, 0);   /* MMPP */
+
+    /* the agent role of a reaction SMILES, as the reader hands it over */
+    as_reaction *rx = NULL;
+    as_error err;
+    const char *text = "CC=C>Br>CC(C)Br";
+    assert_int_equal(as_reaction_parse(text, strlen(text), &rx, &err), AS_OK);
+    as_reagent_match m;
+    assert_int_equal(as_rules_recognise_agents(t, rx->role[AS_ROLE_AGENTS], &m, &err), AS_OK);
+    assert_string_equal(m.rule->id, "hx");
+    as_reaction_free(rx);
+    text = "CC=C>>CC(C)Br";
+    assert_int_equal(as_reaction_parse(text, strlen(text), &rx, &err), AS_OK);
+    assert_int_equal(as_rules_recognise_agents(t, rx->role[AS_ROLE_AGENTS], &m, &err),
+                     AS_ERR_EMPTY);
+    as_reaction_free(rx);
+
+    /* a molecule that was read but not perceived */
+    as_mol *raw = NULL;
+    assert_int_equal(as_smiles_read("OO.Br", 5, NULL, &raw, &err), AS_OK);
+    assert_int_equal(as_rules_recognise_agents(t, raw, &m, &err), AS_OK);
+    assert_string_equal(m.rule->id, "hbr_radical");
+    as_mol_free(raw);
+    as_rules_free(t);
+}
+
+static void rules_should_report_unknown_and_ambiguous_agents(void **state)
+{
+    (void)state;
+    as_rules *t = load_source_table();
+    as_reagent_match m;
+    as_error err;
+    assert_int_equal(recognise_smiles(t, "OCC", &m, &err), AS_ERR_REAGENT);
+    assert_null(m.rule);
+    assert_contains(err.msg, "not recognised");
+    assert_contains(err.msg, "CCO");
+    assert_contains(err.msg, "syn_dihydroxylation");
+    assert_int_equal(recognise_smiles(t, "Br.BrBr", &m, &err), AS_ERR_REAGENT);
+    assert_contains(err.msg, "ambiguous");
+    assert_contains(err.msg, "hx (HBr)");
+    assert_contains(err.msg, "halogenation (Br2)");
+    assert_int_equal(as_rules_recognise_agents(t, NULL, &m, &err), AS_ERR_ARG);
+    as_rules_free(t);
 }
 
 /* ---------------------------------------------------------------- search order */
@@ -721,7 +921,12 @@ int main(void)
         cmocka_unit_test(rules_loader_should_reject_an_unknown_key),
         cmocka_unit_test(rules_loader_should_reject_a_missing_group),
         cmocka_unit_test(rules_loader_should_give_line_and_column_of_a_syntax_error),
+        cmocka_unit_test(rules_loader_should_reject_an_agent_set_that_is_not_smiles),
+        cmocka_unit_test(rules_loader_should_reject_a_product_group_that_is_not_smiles),
         cmocka_unit_test(rules_load_dir_should_reject_a_duplicate_id_across_files),
+        cmocka_unit_test(rules_loader_should_survive_truncated_and_mutated_files),
+        cmocka_unit_test(rules_should_recognise_agent_sets_from_reaction_smiles),
+        cmocka_unit_test(rules_should_report_unknown_and_ambiguous_agents),
         cmocka_unit_test(rules_load_should_follow_the_search_order),
         cmocka_unit_test(rules_table_should_be_shared_by_threads),
     };

@@ -44,6 +44,9 @@ typedef struct as_rule_variant {
     const char *workup;   /* AS_REGIO_CLEAVE only: "reductive" or "oxidative"; else NULL */
     const char *reagent_smiles; /* the atoms added, as SMILES ("Br", "O", "[H][H]") for the
                                    formula check; may be NULL */
+    int nagents;
+    const char *const *agents;  /* agent sets recognised in reaction SMILES, as written in the
+                                   rule file ("B.C1CCOC1"); nagents entries */
 } as_rule_variant;
 
 /* A published selectivity figure: for substrates of class `cls` the product with `first` on
