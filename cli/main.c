@@ -17,6 +17,8 @@ typedef struct command {
 
 static const command commands[] = {
     {"canon", as_cli_canon, "write canonical SMILES, one line per input line"},
+    {"predict", as_cli_predict, "predict the products of one substrate and reagent set"},
+    {"rules", as_cli_rules, "list the reaction rule table"},
 };
 
 static void usage(FILE *f)

@@ -79,7 +79,12 @@ static as_status pass_hydrogens(as_mol *m, as_error *err)
             a->total_h = 0;
             continue;
         }
-        int h = v - sum - (a->aromatic ? 1 : 0);
+        /* the aromatic pi contribution is subtracted only while the bonds are still written
+         * aromatic; a molecule perceived before holds Kekulé orders that already count it */
+        int arom_bonds = 0;
+        for (int k = 0; k < a->degree; k++)
+            arom_bonds += m->bonds[a->nbond[k]].order == AS_BOND_AROMATIC;
+        int h = v - sum - (a->aromatic && arom_bonds ? 1 : 0);
         a->total_h = h > 0 ? h : 0;
     }
     return AS_OK;

@@ -49,12 +49,35 @@ static const char *base_name(const char *name)
 /* path + ".key" or path + "[i]" into out */
 static void path_key(char *out, const char *path, const char *key)
 {
-    snprintf(out, MAX_PATH_TEXT, "%s.%s", path, key);
+    /* built piecewise so an over-long path is cut, never overrun */
+    size_t n = strlen(path);
+    if (n > MAX_PATH_TEXT - 1)
+        n = MAX_PATH_TEXT - 1;
+    memmove(out, path, n);
+    size_t k = strlen(key);
+    if (n + 1 + k > MAX_PATH_TEXT - 1)
+        k = n + 1 < MAX_PATH_TEXT - 1 ? MAX_PATH_TEXT - 2 - n : 0;
+    if (n + 1 < MAX_PATH_TEXT) {
+        out[n++] = '.';
+        memcpy(out + n, key, k);
+        n += k;
+    }
+    out[n] = '\0';
 }
 
 static void path_index(char *out, const char *path, int i)
 {
-    snprintf(out, MAX_PATH_TEXT, "%s[%d]", path, i);
+    char idx[16];
+    int w = snprintf(idx, sizeof idx, "[%d]", i);
+    size_t n = strlen(path);
+    if (n > MAX_PATH_TEXT - 1)
+        n = MAX_PATH_TEXT - 1;
+    memmove(out, path, n);
+    size_t k = w > 0 ? (size_t)w : 0;
+    if (n + k > MAX_PATH_TEXT - 1)
+        k = MAX_PATH_TEXT - 1 - n;
+    memcpy(out + n, idx, k);
+    out[n + k] = '\0';
 }
 
 static const char *json_type_name(const cJSON *v)

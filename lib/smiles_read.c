@@ -706,7 +706,7 @@ static as_status parse_body(parser *p)
                 first = p->rings[i].offset;
                 num = i;
             }
-        char tok[8];
+        char tok[16];
         snprintf(tok, sizeof tok, "%d", num);
         return fail(p, AS_ERR_RING, first, "ring bond %s opened here is never closed", tok);
     }
