@@ -81,8 +81,7 @@ typedef struct canon_ctx {
     /* refinement scratch */
     int *order;
     int *tmp;
-    int *nkey;         /* per atom, degree sorted neighbour codes */
-    int *newrank;
+    int *scratch;      /* 11 n ints for refine() */
     /* best string so far */
     char *best;
     size_t best_len;
@@ -95,85 +94,173 @@ static int bond_code(const as_bond *b)
     return b->aromatic ? 4 : b->order;
 }
 
-/* Compares atoms x, y by (rank, sorted neighbour codes). */
-static int key_cmp(const canon_ctx *c, const int *rank, int x, int y)
+/* Sorts v[0..n) ascending by key[v[i]] (insertion sort for short runs, else merge sort
+ * through tmp). */
+static void sort_by_key(int *v, int n, const int *key, int *tmp)
 {
-    if (rank[x] != rank[y])
-        return rank[x] < rank[y] ? -1 : 1;
-    int dx = c->m->atoms[x].degree, dy = c->m->atoms[y].degree;
-    if (dx != dy)
-        return dx < dy ? -1 : 1;
-    const int *kx = c->nkey + (size_t)x * AS_MAX_DEGREE, *ky = c->nkey + (size_t)y * AS_MAX_DEGREE;
-    for (int i = 0; i < dx; i++)
-        if (kx[i] != ky[i])
-            return kx[i] < ky[i] ? -1 : 1;
-    return 0;
-}
-
-/* Stable merge sort of c->order[0..n) by key_cmp. */
-static void sort_atoms(canon_ctx *c, const int *rank)
-{
-    int n = c->n;
-    int *a = c->order, *t = c->tmp;
+    if (n < 24) {
+        for (int i = 1; i < n; i++) {
+            int x = v[i], j = i - 1;
+            while (j >= 0 && key[v[j]] > key[x]) {
+                v[j + 1] = v[j];
+                j--;
+            }
+            v[j + 1] = x;
+        }
+        return;
+    }
     for (int w = 1; w < n; w *= 2) {
         for (int lo = 0; lo < n; lo += 2 * w) {
             int mid = lo + w < n ? lo + w : n, hi = lo + 2 * w < n ? lo + 2 * w : n;
             int i = lo, j = mid, k = lo;
             while (i < mid && j < hi)
-                t[k++] = key_cmp(c, rank, a[j], a[i]) < 0 ? a[j++] : a[i++];
+                tmp[k++] = key[v[j]] < key[v[i]] ? v[j++] : v[i++];
             while (i < mid)
-                t[k++] = a[i++];
+                tmp[k++] = v[i++];
             while (j < hi)
-                t[k++] = a[j++];
+                tmp[k++] = v[j++];
         }
-        memcpy(a, t, (size_t)n * sizeof(int));
+        memcpy(v, tmp, (size_t)n * sizeof(int));
     }
 }
 
-static void insertion_sort_ints(int *v, int n)
-{
-    for (int i = 1; i < n; i++) {
-        int x = v[i], j = i - 1;
-        while (j >= 0 && v[j] > x) {
-            v[j + 1] = v[j];
-            j--;
-        }
-        v[j + 1] = x;
-    }
-}
-
-/* Refines rank[] (rank = number of atoms with a smaller key) until stable. */
+/* Refines the ordered partition given by rank[] (rank = number of atoms in lower cells, i.e.
+ * the start of the atom's cell) to the coarsest equitable partition: atoms of one cell then
+ * have the same number of neighbours, per bond code, in every cell. Splitter cells are taken
+ * from a FIFO queue and only the atoms they touch move (Hopcroft's trick: a split cell that
+ * is not queued enqueues all its fragments but the largest), so a 100,000-atom chain takes
+ * O(m log n), not one full pass per bond of the chain. Fragments are ordered by their
+ * neighbour counts, so the result depends only on the input partition, never on atom
+ * numbering. */
 static void refine(canon_ctx *c, int *rank)
 {
     const as_mol *m = c->m;
     int n = c->n;
-    int classes = -1;
-    for (;;) {
-        for (int i = 0; i < n; i++) {
-            const as_atom *a = &m->atoms[i];
-            int *k = c->nkey + (size_t)i * AS_MAX_DEGREE;
-            for (int j = 0; j < a->degree; j++)
-                k[j] = rank[a->nbr[j]] * 8 + bond_code(&m->bonds[a->nbond[j]]);
-            insertion_sort_ints(k, a->degree);
-        }
-        for (int i = 0; i < n; i++)
-            c->order[i] = i;
-        sort_atoms(c, rank);
-        int nclass = 0;
-        for (int i = 0; i < n; i++) {
-            int x = c->order[i];
-            if (i == 0 || key_cmp(c, rank, c->order[i - 1], x) != 0) {
-                nclass++;
-                c->newrank[x] = i;
-            } else {
-                c->newrank[x] = c->newrank[c->order[i - 1]];
+    if (n == 0)
+        return;
+    int *elems = c->scratch, *pos = elems + n, *cell_of = pos + n, *cell_len = cell_of + n;
+    int *cnt = cell_len + n, *tcount = cnt + n, *touched = tcount + n, *tcells = touched + n;
+    int *queue = tcells + n, *inq = queue + n, *tmp = inq + n;
+    /* counting sort of atoms by rank: cells are contiguous, starting at their rank */
+    memset(cell_len, 0, (size_t)n * sizeof(int));
+    for (int v = 0; v < n; v++)
+        cell_len[rank[v]]++;
+    memcpy(tcount, cell_len, (size_t)n * sizeof(int)); /* fill cursor, reset below */
+    for (int v = 0; v < n; v++) {
+        int s = rank[v];
+        int k = s + cell_len[s] - tcount[s]--;
+        elems[k] = v;
+        pos[v] = k;
+        cell_of[v] = s;
+    }
+    memset(cnt, 0, (size_t)n * sizeof(int));
+    memset(tcount, 0, (size_t)n * sizeof(int));
+    memset(inq, 0, (size_t)n * sizeof(int));
+    int qhead = 0, qlen = 0;
+    for (int s = 0; s < n; s += cell_len[s]) {
+        queue[(qhead + qlen++) % n] = s;
+        inq[s] = 1;
+    }
+    while (qlen) {
+        int w = queue[qhead];
+        qhead = (qhead + 1) % n;
+        qlen--;
+        inq[w] = 0;
+        int nt = 0, ntc = 0;
+        int wlen = cell_len[w];
+        for (int k = w; k < w + wlen; k++) {
+            const as_atom *a = &m->atoms[elems[k]];
+            for (int j = 0; j < a->degree; j++) {
+                int u = a->nbr[j];
+                int code = bond_code(&m->bonds[a->nbond[j]]);
+                if (cnt[u] == 0) {
+                    /* first touch: move u to the tail of its cell */
+                    int x = cell_of[u];
+                    if (tcount[x] == 0)
+                        tcells[ntc++] = x;
+                    int target = x + cell_len[x] - 1 - tcount[x]++;
+                    int other = elems[target];
+                    elems[pos[u]] = other;
+                    pos[other] = pos[u];
+                    elems[target] = u;
+                    pos[u] = target;
+                    touched[nt++] = u;
+                }
+                cnt[u] += 1 << (4 * (code - 1));
             }
         }
-        memcpy(rank, c->newrank, (size_t)n * sizeof(int));
-        if (nclass == classes || nclass == n)
-            break;
-        classes = nclass;
+        /* split touched cells, lowest start first */
+        for (int i = 1; i < ntc; i++) {
+            int x = tcells[i], j = i - 1;
+            while (j >= 0 && tcells[j] > x) {
+                tcells[j + 1] = tcells[j];
+                j--;
+            }
+            tcells[j + 1] = x;
+        }
+        for (int i = 0; i < ntc; i++) {
+            int x = tcells[i], len = cell_len[x], t = tcount[x];
+            int tail = x + len - t;
+            sort_by_key(elems + tail, t, cnt, tmp);
+            for (int k = tail; k < x + len; k++)
+                pos[elems[k]] = k;
+            /* fragment boundaries */
+            int nfrag = 0, largest = -1, largest_len = -1;
+            int starts[2];
+            (void)starts;
+            int fs = x;
+            int first_touched_frag = t == len ? x : tail;
+            if (t < len)
+                nfrag = 1;
+            int was_queued = inq[x];
+            /* walk fragments */
+            int k = first_touched_frag;
+            while (k < x + len) {
+                int e = k + 1;
+                while (e < x + len && cnt[elems[e]] == cnt[elems[k]])
+                    e++;
+                nfrag++;
+                k = e;
+            }
+            if (nfrag == 1)
+                continue;
+            /* set cell data and find the largest fragment */
+            fs = x;
+            while (fs < x + len) {
+                int e;
+                if (fs < tail) {
+                    e = tail;
+                } else {
+                    e = fs + 1;
+                    while (e < x + len && cnt[elems[e]] == cnt[elems[fs]])
+                        e++;
+                }
+                cell_len[fs] = e - fs;
+                for (int q = fs; q < e; q++)
+                    cell_of[elems[q]] = fs;
+                if (e - fs > largest_len) {
+                    largest_len = e - fs;
+                    largest = fs;
+                }
+                fs = e;
+            }
+            for (fs = x; fs < x + len; fs += cell_len[fs]) {
+                if (inq[fs])
+                    continue;
+                if (!was_queued && fs == largest)
+                    continue;
+                queue[(qhead + qlen++) % n] = fs;
+                inq[fs] = 1;
+            }
+        }
+        for (int i = 0; i < nt; i++) {
+            int u = touched[i];
+            cnt[u] = 0;
+        }
+        for (int i = 0; i < ntc; i++)
+            tcount[tcells[i]] = 0;
     }
+    memcpy(rank, cell_of, (size_t)n * sizeof(int));
 }
 
 /* rank[i] = number of atoms whose 128-bit key (inv[2i], inv[2i+1]) is smaller. */
@@ -210,7 +297,7 @@ static void rank_by_keys(canon_ctx *c, const uint64_t *inv, int *rank)
 }
 
 /* Initial invariants → ranks: degree, element, isotope, charge, H count, aromaticity, ring
- * membership, then the atom class when maps are written. */
+ * size (smallest ring through the atom), then the atom class when maps are written. */
 static void initial_ranks(canon_ctx *c, int *rank)
 {
     const as_mol *m = c->m;
@@ -229,7 +316,7 @@ static void initial_ranks(canon_ctx *c, int *rank)
         hi |= (uint64_t)((a->charge + 64) & 0xff) << 24;
         hi |= (uint64_t)(a->total_h & 0xff) << 16;
         hi |= (uint64_t)(a->aromatic & 1) << 8;
-        hi |= (uint64_t)(a->ring_size ? 1 : 0);
+        hi |= (uint64_t)(a->ring_size & 0xff); /* smallest ring: a graph invariant */
         inv[2 * i] = hi;
         inv[2 * i + 1] = c->o->atom_maps ? (uint64_t)(unsigned)a->mapnum : 0;
     }
@@ -1050,6 +1137,15 @@ static void consider(canon_ctx *c, char *s)
     }
 }
 
+/* Number of ring bonds at atom a (a graph invariant: bonds that lie on a cycle). */
+static int ring_bond_count(const as_mol *m, int a)
+{
+    int k = 0;
+    for (int j = 0; j < m->atoms[a].degree; j++)
+        k += m->bonds[m->atoms[a].nbond[j]].ring_size > 0;
+    return k;
+}
+
 static void explore(canon_ctx *c, int *rank)
 {
     int n = c->n;
@@ -1092,7 +1188,13 @@ static void explore(canon_ctx *c, int *rank)
         /* members of the first tied class, in atom order; branching pays only where the
          * class touches a stereo element (swapping the F atoms of a CF3 cannot change the
          * string, swapping two mirror-related stereocentres can) */
+        /* In acyclic parts refinement classes are automorphism orbits (trees), so any
+         * member will do, and so they are for atoms of a single ring (phenyl ortho pairs);
+         * where rings fuse or bridge (three or more ring bonds on the atom) a class can hold
+         * atoms that no symmetry exchanges (cages), so those ties are explored too. */
         int branch = r_near >= 0;
+        for (int i = 0; i < n && !branch; i++)
+            branch = rank[i] == r && ring_bond_count(c->m, i) >= 3;
         int first = -1;
         for (int i = 0; i < n; i++)
             if (rank[i] == r) {
@@ -1102,7 +1204,7 @@ static void explore(canon_ctx *c, int *rank)
                         break;
                     continue;
                 }
-                if (c->leaves >= MAX_LEAVES)
+                if (c->leaves >= (c->has_stereo ? MAX_LEAVES : MAX_LEAVES / 4))
                     break;
                 memcpy(work, rank, (size_t)n * sizeof(int));
                 for (int j = 0; j < n; j++)
@@ -1139,8 +1241,7 @@ static void ctx_free(canon_ctx *c)
     free(c->near_stereo);
     free(c->order);
     free(c->tmp);
-    free(c->nkey);
-    free(c->newrank);
+    free(c->scratch);
     free(c->best);
 }
 
@@ -1157,10 +1258,8 @@ static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
     c->near_stereo = calloc(na, 1);
     c->order = malloc(na * sizeof(int));
     c->tmp = malloc(na * sizeof(int));
-    c->nkey = malloc(na * AS_MAX_DEGREE * sizeof(int));
-    c->newrank = malloc(na * sizeof(int));
-    if (!c->cls || !c->real_tetra || !c->real_db || !c->near_stereo || !c->order || !c->tmp || !c->nkey ||
-        !c->newrank)
+    c->scratch = malloc(na * 11 * sizeof(int));
+    if (!c->cls || !c->real_tetra || !c->real_db || !c->near_stereo || !c->order || !c->tmp || !c->scratch)
         return AS_ERR_NOMEM;
     initial_ranks(c, c->cls);
     if (c->st != AS_OK)
