@@ -103,8 +103,35 @@ RETAINED_CASES = [
      "group: diastereomers (common practice)"),
 ]
 
-# Norbornene: (id, substrate, reagents, element added on the exo face, source).
-EXO_CASES = []
+# Norbornene-type substrates: (id, substrate, reagents, stereo word, source). Every atom the
+# reagent adds to a former alkene carbon (O, B-derived O, D; the epoxide O) must lie on the
+# exo face in an RDKit embedding of the major product.
+NORBORNENE = "C1CC2CC1C=C2"
+# bicyclo[2.2.1]heptane, any bonds: atoms 2 and 5 are the bridgeheads, 6 the one-carbon bridge
+NORBORNANE = Chem.MolFromSmarts("[#6]1~[#6]~[#6]2~[#6]~[#6]~[#6]1~[#6]2")
+EXO_CASES = [
+    ("X01", NORBORNENE, "1. BH3·THF; 2. H2O2, NaOH", "racemic",
+     "exo-norborneol (about 99.5% exo); Brown & Zweifel, J. Am. Chem. Soc. 1961, 83, 2544 "
+     "(from memory)"),
+    ("X02", NORBORNENE, "1. 9-BBN, THF; 2. H2O2, NaOH", "racemic",
+     "exo-norborneol, as for BH3 (Brown & Zweifel 1961, from memory)"),
+    ("X03", NORBORNENE, "mCPBA, CH2Cl2", "meso",
+     "exo-2,3-epoxynorbornane; Carey & Sundberg, Advanced Organic Chemistry, Part A, 5th "
+     "ed., Ch. 2 (from memory)"),
+    ("X04", NORBORNENE, "OsO4 (cat.), NMO, acetone/H2O", "meso",
+     "exo-cis-2,3-norbornanediol; common practice (from memory)"),
+    ("X05", NORBORNENE, "1. Hg(OAc)2, H2O/THF; 2. NaBH4, NaOH", "racemic",
+     "exo-norborneol by cis-exo oxymercuration; Traylor & Baker, J. Am. Chem. Soc. 1963, "
+     "85, 2746 (from memory)"),
+    ("X06", NORBORNENE, "D2, Pd/C, EtOAc", "meso",
+     "exo,exo-2,3-dideuterionorbornane; common practice (from memory)"),
+    ("X07", "C1=CC2CC1C=C2", "1. 9-BBN (1 equiv), THF; 2. H2O2, NaOH", "racemic",
+     "norbornadiene, one C=C: exo alcohol, the other C=C kept; exo face as for norbornene "
+     "(common practice, from memory)"),
+    ("X08", "CC12CCC(C1)C=C2", "mCPBA, CH2Cl2", "racemic",
+     "1-methylnorbornene: exo epoxide, the bridgehead methyl points away from both faces "
+     "(common practice, from memory)"),
+]
 
 
 def run(smi, reagents):
@@ -162,6 +189,52 @@ def check_pattern(smi, pattern):
     return None
 
 
+def exo_problems(smi):
+    """Embeds smi (RDKit ETKDG) and returns a list of problems: every non-carbon atom bonded
+    to a two-carbon-bridge carbon of the bicyclo[2.2.1] skeleton must sit on the side of the
+    one-carbon bridge."""
+    mol = Chem.MolFromSmiles(smi)
+    if mol is None:
+        return ["RDKit cannot read %s" % smi]
+    if unassigned_centres(mol):
+        return ["%s has stereocentres without configuration" % smi]
+    match = mol.GetSubstructMatch(NORBORNANE)
+    if not match:
+        return ["%s: no bicyclo[2.2.1] skeleton found" % smi]
+    heads = [match[2], match[5]]
+    bridge = match[6]
+    skeleton = set(match)
+    molh = Chem.AddHs(mol)
+    if AllChem.EmbedMolecule(molh, randomSeed=0xA5D) != 0:
+        return ["%s: RDKit could not embed it" % smi]
+    pos = molh.GetConformer().GetPositions()
+    added = []  # (bridge carbon, atom the reagent put on it)
+    for pair in ((match[0], match[1]), (match[3], match[4])):
+        for c in pair:
+            for x in mol.GetAtomWithIdx(c).GetNeighbors():
+                if x.GetIdx() not in skeleton and (x.GetSymbol() != "C" or x.GetIsotope()):
+                    added.append((c, x.GetIdx(), pair))
+    if not added:
+        return ["%s: no added atom on the ring found" % smi]
+    problems = []
+    for c, x, pair in added:
+        # plane of the six-membered ring that holds c: both bridgeheads and the pair c is in
+        pts = [pos[i] for i in heads + list(pair)]
+        centre = sum(pts) / len(pts)
+        normal = _plane_normal(pts, centre)
+        side_bridge = float(normal @ (pos[bridge] - centre))
+        side_x = float(normal @ (pos[x] - pos[c]))
+        if side_bridge * side_x <= 0:
+            problems.append("%s: atom %d on C%d is endo (3-D embedding)" % (smi, x + 1, c + 1))
+    return problems
+
+
+def _plane_normal(pts, centre):
+    import numpy
+    a = numpy.array([p - centre for p in pts])
+    return numpy.linalg.svd(a)[2][2]
+
+
 def main():
     if not ADDSITE or not os.path.exists(ADDSITE):
         print("ADDSITE is not set to the built binary", file=sys.stderr)
@@ -217,6 +290,24 @@ def main():
                 problems.append("%s: new centres should be left unassigned" % p["smiles"])
             if word == "single" and unassigned_centres(mol):
                 problems.append("%s: unexpected unassigned centre" % p["smiles"])
+        report(cid, problems, "%s + %s" % (smi, reagents))
+
+    for cid, smi, reagents, word, _source in EXO_CASES:
+        out, errtext = run(smi, reagents)
+        if out is None:
+            report(cid, ["addsite failed: %s" % errtext], smi)
+            continue
+        majors = [p for p in out["products"] if p["role"] == "major"]
+        problems = []
+        if not majors:
+            problems.append("no major product (%s)" % ", ".join(
+                "%s %s" % (p["smiles"], p["role"]) for p in out["products"]))
+        for p in majors[:1]:
+            if p["stereo"] != word:
+                problems.append("%s: stereo %r, expected %r" % (p["smiles"], p["stereo"], word))
+            problems += exo_problems(p["smiles"])
+        if not any("exo face" in r for r in out["rationale"]):
+            problems.append("the rationale does not name the exo face")
         report(cid, problems, "%s + %s" % (smi, reagents))
 
     print("%d passed, %d failed" % (passed, failed))
