@@ -128,6 +128,11 @@ EXO_CASES = [
     ("X07", "C1=CC2CC1C=C2", "1. 9-BBN (1 equiv), THF; 2. H2O2, NaOH", "racemic",
      "norbornadiene, one C=C: exo alcohol, the other C=C kept; exo face as for norbornene "
      "(common practice, from memory)"),
+    ("X09", "C[C@]12CC[C@H](C1)C=C2C", "OsO4 (cat.), NMO, acetone/H2O", "single",
+     "enantiopure 1,2-dimethylnorbornene: exo-cis diol, the bridgehead configuration kept "
+     "(exo face as for norbornene, common practice, from memory)"),
+    ("X10", "C[C@@]12CC[C@@H](C1)C=C2C", "OsO4 (cat.), NMO, acetone/H2O", "single",
+     "the enantiomer of X09: the exo diol must follow the written bridgeheads"),
     ("X08", "CC12CCC(C1)C=C2", "mCPBA, CH2Cl2", "racemic",
      "1-methylnorbornene: exo epoxide, the bridgehead methyl points away from both faces "
      "(common practice, from memory)"),
