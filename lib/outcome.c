@@ -677,8 +677,8 @@ static int rationale_mechanism(as_outcome *o, const as_adducts *l)
                     e1->cation_hia, e1->cation_kind, c1 + 1, g2, c2 + 1))
                 return -1;
         } else {
-            if (say(o, "The electrophile bridges C%d and C%d as a %s; %s opens it at C%d, the "
-                       "carbon better able to carry positive charge (%s, estimated hydride ion "
+            if (say(o, "The electrophile bridges C%d and C%d as a %s; %s opens it from the "
+                       "opposite face at C%d, the carbon better able to carry positive charge (%s, estimated hydride ion "
                        "affinity %.0f against %.0f kcal/mol at C%d), and %s ends on C%d. No free "
                        "carbocation forms, so the skeleton does not rearrange.",
                     c1 + 1, c2 + 1, r->intermediate, g2, c2 + 1, e2->cation_kind,
@@ -712,22 +712,23 @@ static int rationale_mechanism(as_outcome *o, const as_adducts *l)
             return -1;
         break;
     case AS_REGIO_NONE:
+        /* the rule's summary states the mechanism in a chemist's words */
         if (v->bridge) {
-            if (say(o, "One %s atom bridges C%d and C%d (%s, %s addition).", v->bridge, c1 + 1,
-                    c2 + 1, r->intermediate, r->stereo == AS_ADD_ANTI ? "anti" : "syn"))
+            if (say(o, "One %s atom bridges C%d and C%d (%s addition). %s", v->bridge, c1 + 1,
+                    c2 + 1, r->stereo == AS_ADD_ANTI ? "anti" : "syn", r->summary))
                 return -1;
-        } else if (say(o, "%s and %s add to C%d and C%d (%s addition; %s).", g1,
+        } else if (say(o, "%s and %s add to C%d and C%d (%s addition). %s", g1,
                         v->second ? g2 : g1, c1 + 1, c2 + 1,
                         r->stereo == AS_ADD_SYN    ? "syn"
                         : r->stereo == AS_ADD_ANTI ? "anti"
                                                    : "non-stereospecific",
-                        r->intermediate)) {
+                        r->summary)) {
             return -1;
         }
         break;
     case AS_REGIO_CLEAVE:
-        if (say(o, "The C%d=C%d bond is cut (%s); each carbon becomes a carbonyl carbon, and "
-                   "with %s work-up %s.",
+        if (say(o, "The C%d=C%d bond is cut (via the %s); each carbon becomes a carbonyl carbon, "
+                   "and with %s work-up %s.",
                 c1 + 1, c2 + 1, r->intermediate, v->workup ? v->workup : "the usual",
                 v->workup && strcmp(v->workup, "oxidative") == 0
                     ? "a carbon that carried H becomes a carboxylic acid"
