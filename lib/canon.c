@@ -69,6 +69,11 @@ static void sb_int(sbuf *b, long v)
 
 /* ---------------------------------------------------------------- ranking */
 
+typedef struct ringbond {
+    int opener, closer, bond;
+    int digit;
+} ringbond;
+
 typedef struct canon_ctx {
     const as_mol *m;
     const as_canon_opts *o;
@@ -82,6 +87,9 @@ typedef struct canon_ctx {
     int *order;
     int *tmp;
     int *scratch;      /* 11 n ints for refine() */
+    int *wblock;       /* writer scratch, reused by every complete ordering */
+    ringbond *wrb;     /* ring bonds, one per bond at most */
+    signed char *wdir; /* bond marks */
     /* best string so far */
     char *best;
     size_t best_len;
@@ -302,11 +310,7 @@ static void initial_ranks(canon_ctx *c, int *rank)
 {
     const as_mol *m = c->m;
     int n = c->n;
-    uint64_t *inv = malloc((size_t)(n ? n : 1) * 2 * sizeof(uint64_t));
-    if (!inv) {
-        c->st = AS_ERR_NOMEM;
-        return;
-    }
+    uint64_t *inv = (uint64_t *)(void *)c->scratch; /* 11 n ints hold 2 n keys */
     for (int i = 0; i < n; i++) {
         const as_atom *a = &m->atoms[i];
         uint64_t hi = 0;
@@ -321,7 +325,6 @@ static void initial_ranks(canon_ctx *c, int *rank)
         inv[2 * i + 1] = c->o->atom_maps ? (uint64_t)(unsigned)a->mapnum : 0;
     }
     rank_by_keys(c, inv, rank);
-    free(inv);
 }
 
 /* ---------------------------------------------------------------- real stereo elements */
@@ -535,11 +538,6 @@ static void stereo_refine(canon_ctx *c)
 
 /* ---------------------------------------------------------------- writer */
 
-typedef struct ringbond {
-    int opener, closer, bond;
-    int digit;
-} ringbond;
-
 typedef struct writer {
     canon_ctx *c;
     const int *rank;
@@ -552,6 +550,7 @@ typedef struct writer {
     int *child_start, *children; /* tree children per atom, in visit order */
     signed char *dir; /* per bond: 0 none, +1 '/', -1 '\\' in written direction */
     int *written_first; /* per bond: the atom written first */
+    int *stack, *it, *nbuf, *nchild, *byrank, *ci; /* traversal scratch */
 } writer;
 
 /* Neighbours of a sorted by rank. */
@@ -576,15 +575,8 @@ static int build_tree(writer *w)
 {
     const as_mol *m = w->c->m;
     int n = w->c->n;
-    int *stack = malloc((size_t)(n ? n : 1) * sizeof(int));
-    int *it = malloc((size_t)(n ? n : 1) * sizeof(int));
-    int *nb = malloc((size_t)(n ? n : 1) * AS_MAX_DEGREE * sizeof(int));
-    int *nchild = calloc((size_t)(n ? n : 1), sizeof(int));
-    if (!stack || !it || !nb || !nchild)
-        goto oom;
-    int *byrank = malloc((size_t)(n ? n : 1) * sizeof(int));
-    if (!byrank)
-        goto oom;
+    int *stack = w->stack, *it = w->it, *nb = w->nbuf, *nchild = w->nchild, *byrank = w->byrank;
+    memset(nchild, 0, (size_t)n * sizeof(int));
     for (int i = 0; i < n; i++)
         byrank[w->rank[i]] = i;
     for (int i = 0; i < n; i++) {
@@ -642,18 +634,7 @@ static int build_tree(writer *w)
         if (p >= 0)
             w->children[w->child_start[p] + nchild[p]++] = v;
     }
-    free(byrank);
-    free(stack);
-    free(it);
-    free(nb);
-    free(nchild);
     return 0;
-oom:
-    free(stack);
-    free(it);
-    free(nb);
-    free(nchild);
-    return -1;
 }
 
 /* Ring bonds at atom a in the order their digits are written: closures first (by the
@@ -998,13 +979,8 @@ static as_status emit(writer *w, sbuf *sb)
     int n = w->c->n;
     char used[100] = {0};
     /* explicit stack of (atom, next child index); branch parentheses by position */
-    int *stack = malloc((size_t)(n ? n : 1) * sizeof(int));
-    int *ci = malloc((size_t)(n ? n : 1) * sizeof(int));
-    if (!stack || !ci) {
-        free(stack);
-        free(ci);
-        return AS_ERR_NOMEM;
-    }
+    int *stack = w->stack, *ci = w->ci;
+    (void)n;
     int first_comp = 1;
     for (int k = 0; k < w->nseq; k++) {
         int s = w->seq[k];
@@ -1036,11 +1012,8 @@ static as_status emit(writer *w, sbuf *sb)
                             d++;
                         if (d == 100) {
                             d = 0;
-                            if (used[0]) {
-                                free(stack);
-                                free(ci);
+                            if (used[0])
                                 return AS_ERR_LIMIT;
-                            }
                         }
                         used[d] = 1;
                         r->digit = d;
@@ -1069,8 +1042,6 @@ static as_status emit(writer *w, sbuf *sb)
             top++;
         }
     }
-    free(stack);
-    free(ci);
     return sb->oom ? AS_ERR_NOMEM : AS_OK;
 }
 
@@ -1083,43 +1054,40 @@ static char *write_smiles(canon_ctx *c, const int *rank, as_status *st)
     memset(&w, 0, sizeof w);
     w.c = c;
     w.rank = rank;
-    size_t na = (size_t)(n ? n : 1), nb = (size_t)(m->nbonds ? m->nbonds : 1);
-    w.visited = malloc(na * sizeof(int));
-    w.parent = malloc(na * sizeof(int));
-    w.seq = malloc(na * sizeof(int));
-    w.rb = malloc(nb * sizeof(ringbond));
-    w.child_start = malloc((na + 1) * sizeof(int));
-    w.children = malloc(na * sizeof(int));
-    w.dir = calloc(nb, 1);
-    w.written_first = malloc(nb * sizeof(int));
+    size_t na = (size_t)(n ? n : 1);
+    int *p = c->wblock;
+    w.visited = p, p += na;
+    w.parent = p, p += na;
+    w.seq = p, p += na;
+    w.child_start = p, p += na + 1;
+    w.children = p, p += na;
+    w.stack = p, p += na;
+    w.it = p, p += na;
+    w.nchild = p, p += na;
+    w.byrank = p, p += na;
+    w.ci = p, p += na;
+    w.nbuf = p, p += na * AS_MAX_DEGREE;
+    w.written_first = p;
+    w.rb = c->wrb;
+    w.dir = c->wdir;
+    memset(w.dir, 0, (size_t)(m->nbonds ? m->nbonds : 1));
     sbuf sb = {0};
+    /* a first guess at the length saves most reallocations */
+    sb.cap = (size_t)n * 3 + 16;
+    sb.s = malloc(sb.cap);
     char *out = NULL;
     *st = AS_ERR_NOMEM;
-    if (!w.visited || !w.parent || !w.seq || !w.rb || !w.child_start || !w.children || !w.dir ||
-        !w.written_first)
-        goto done;
-    if (build_tree(&w))
-        goto done;
+    if (!sb.s)
+        return NULL;
+    sb.s[0] = '\0';
+    build_tree(&w);
     assign_dirs(&w);
     *st = emit(&w, &sb);
     if (*st == AS_OK) {
-        if (!sb.s)
-            sb_puts(&sb, "");
         out = sb.s;
         sb.s = NULL;
-        if (!out)
-            *st = AS_ERR_NOMEM;
     }
-done:
     free(sb.s);
-    free(w.visited);
-    free(w.parent);
-    free(w.seq);
-    free(w.rb);
-    free(w.child_start);
-    free(w.children);
-    free(w.dir);
-    free(w.written_first);
     return out;
 }
 
@@ -1242,6 +1210,9 @@ static void ctx_free(canon_ctx *c)
     free(c->order);
     free(c->tmp);
     free(c->scratch);
+    free(c->wblock);
+    free(c->wrb);
+    free(c->wdir);
     free(c->best);
 }
 
@@ -1259,7 +1230,12 @@ static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
     c->order = malloc(na * sizeof(int));
     c->tmp = malloc(na * sizeof(int));
     c->scratch = malloc(na * 11 * sizeof(int));
-    if (!c->cls || !c->real_tetra || !c->real_db || !c->near_stereo || !c->order || !c->tmp || !c->scratch)
+    size_t nbd = (size_t)(m->nbonds ? m->nbonds : 1);
+    c->wblock = malloc((na * (11 + AS_MAX_DEGREE) + 1 + nbd) * sizeof(int));
+    c->wrb = malloc(nbd * sizeof(ringbond));
+    c->wdir = malloc(nbd);
+    if (!c->cls || !c->real_tetra || !c->real_db || !c->near_stereo || !c->order || !c->tmp || !c->scratch ||
+        !c->wblock || !c->wrb || !c->wdir)
         return AS_ERR_NOMEM;
     initial_ranks(c, c->cls);
     if (c->st != AS_OK)
