@@ -21,6 +21,7 @@ static const command commands[] = {
     {"rules", as_cli_rules, "list the reaction rule table"},
     {"check", as_cli_check, "judge a recorded product against the prediction"},
     {"plan", as_cli_plan, "rank the reagent sets that give a wanted product"},
+    {"annotate", as_cli_annotate, "annotate a reaction file, one output record per input"},
 };
 
 static void usage(FILE *f)
