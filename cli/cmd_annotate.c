@@ -343,7 +343,8 @@ static void annotate(const config *cfg, slot *s)
             base = s->col_product;
         else if (field && !strcmp(field, "reagents"))
             base = s->col_reagents;
-        s->err.column = base > 0 && err.offset >= 0 ? base + err.offset : 0;
+        /* the field's first column when the message points at no byte in it */
+        s->err.column = base > 0 ? base + (err.offset >= 0 ? err.offset : 0) : 0;
         notes_out(s, notes1, nn);
         return;
     }
@@ -375,7 +376,8 @@ static void annotate(const config *cfg, slot *s)
     if (c->no_site) {
         char sub[160];
         snprintf(sub, sizeof sub, "%.120s", c->substrate);
-        set_error(s, AS_ERR_NO_SITE, s->reaction ? "reaction" : "substrate", 0,
+        set_error(s, AS_ERR_NO_SITE, s->reaction ? "reaction" : "substrate",
+                  s->reaction ? s->col_reaction : s->col_substrate,
                   "the substrate %s has no C=C outside aromatic rings: nothing to add to", sub);
     }
     as_check_free(c);

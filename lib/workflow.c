@@ -1032,8 +1032,7 @@ as_status as_check_record(const as_rules *rules, const as_check_input *in,
             rule_list(rules, ids, sizeof ids);
             *field = NULL;
             st = as_error_set(err, AS_ERR_REAGENT, -1, -1,
-                              "no reagents: the record has no reagent text and no agents, and "
-                              "no default was given; rules: %s",
+                              "no reagents given; rules: %s",
                               ids);
             goto fail;
         }
