@@ -4,7 +4,7 @@
  * Must not: hold chemistry (as_check_record resolves, predicts and judges every record).
  *
  * Threads. With -j 1 one thread reads, annotates and writes. With -j N a reader thread fills
- * a ring of 4N slots, N workers annotate any filled slot, and the main thread writes slots in
+ * a ring of 16N slots, N workers annotate any filled slot, and the main thread writes slots in
  * input order as they complete; the reader waits when the ring is full, so memory stays flat
  * however long the input. Annotating a record depends on nothing but the record, the options
  * and the read-only rule table, so the output is the same byte for byte for every N. */
@@ -508,7 +508,9 @@ typedef struct pipeline {
     int eof, stop, fatal;
     as_error read_err;
     pthread_mutex_t mu;
-    pthread_cond_t cv;       /* any state change */
+    pthread_cond_t space;    /* a slot was freed (reader waits) */
+    pthread_cond_t filled;   /* a slot was filled or input ended (workers wait) */
+    pthread_cond_t done;     /* a slot was annotated or input ended (writer waits) */
 } pipeline;
 
 static void *reader_main(void *arg)
@@ -521,14 +523,15 @@ static void *reader_main(void *arg)
         as_status st = as_reader_next(p->reader, &rec, &err);
         pthread_mutex_lock(&p->mu);
         while (!p->stop && p->head - p->tail >= p->cap)
-            pthread_cond_wait(&p->cv, &p->mu);
+            pthread_cond_wait(&p->space, &p->mu);
         if (p->stop || st != AS_OK || rec.at_end) {
             if (st != AS_OK) {
                 p->fatal = 1;
                 p->read_err = err;
             }
             p->eof = 1;
-            pthread_cond_broadcast(&p->cv);
+            pthread_cond_broadcast(&p->filled);
+            pthread_cond_broadcast(&p->done);
             pthread_mutex_unlock(&p->mu);
             return NULL;
         }
@@ -543,12 +546,13 @@ static void *reader_main(void *arg)
             snprintf(p->read_err.msg, sizeof p->read_err.msg, "out of memory");
             p->eof = 1;
             slot_clear(s);
-            pthread_cond_broadcast(&p->cv);
+            pthread_cond_broadcast(&p->filled);
+            pthread_cond_broadcast(&p->done);
             pthread_mutex_unlock(&p->mu);
             return NULL;
         }
         p->head++;
-        pthread_cond_broadcast(&p->cv);
+        pthread_cond_signal(&p->filled);
         pthread_mutex_unlock(&p->mu);
     }
 }
@@ -559,7 +563,7 @@ static void *worker_main(void *arg)
     pthread_mutex_lock(&p->mu);
     for (;;) {
         while (!p->stop && p->work == p->head && !p->eof)
-            pthread_cond_wait(&p->cv, &p->mu);
+            pthread_cond_wait(&p->filled, &p->mu);
         if (p->stop || p->work == p->head) {
             pthread_mutex_unlock(&p->mu);
             return NULL;
@@ -571,7 +575,7 @@ static void *worker_main(void *arg)
         annotate(p->cfg, s);
         pthread_mutex_lock(&p->mu);
         s->state = 3;
-        pthread_cond_broadcast(&p->cv);
+        pthread_cond_signal(&p->done);
     }
 }
 
@@ -637,7 +641,7 @@ static int run_threads(run_state *rs, as_reader *r, int nworkers, as_error *rerr
     memset(&p, 0, sizeof p);
     p.cfg = rs->cfg;
     p.reader = r;
-    p.cap = 4L * nworkers;
+    p.cap = 16L * nworkers;
     p.ring = calloc((size_t)p.cap, sizeof *p.ring);
     if (!p.ring) {
         rerr->code = AS_ERR_NOMEM;
@@ -645,7 +649,9 @@ static int run_threads(run_state *rs, as_reader *r, int nworkers, as_error *rerr
         return -1;
     }
     pthread_mutex_init(&p.mu, NULL);
-    pthread_cond_init(&p.cv, NULL);
+    pthread_cond_init(&p.space, NULL);
+    pthread_cond_init(&p.filled, NULL);
+    pthread_cond_init(&p.done, NULL);
     pthread_t rt, *wt = calloc((size_t)nworkers, sizeof *wt);
     int nstarted = 0, reader_started = 0;
     if (wt && pthread_create(&rt, NULL, reader_main, &p) == 0)
@@ -657,7 +663,8 @@ static int run_threads(run_state *rs, as_reader *r, int nworkers, as_error *rerr
     if (!reader_started || !nstarted) {
         pthread_mutex_lock(&p.mu);
         p.stop = 1;
-        pthread_cond_broadcast(&p.cv);
+        pthread_cond_broadcast(&p.space);
+        pthread_cond_broadcast(&p.filled);
         pthread_mutex_unlock(&p.mu);
         rerr->code = AS_ERR_NOMEM;
         snprintf(rerr->msg, sizeof rerr->msg, "could not start threads");
@@ -667,7 +674,7 @@ static int run_threads(run_state *rs, as_reader *r, int nworkers, as_error *rerr
     while (rc == 0) {
         slot *s = &p.ring[p.tail % p.cap];
         while (!(p.tail < p.head && s->state == 3) && !(p.eof && p.tail == p.head))
-            pthread_cond_wait(&p.cv, &p.mu);
+            pthread_cond_wait(&p.done, &p.mu);
         if (p.tail == p.head && p.eof)
             break;
         pthread_mutex_unlock(&p.mu);
@@ -675,10 +682,11 @@ static int run_threads(run_state *rs, as_reader *r, int nworkers, as_error *rerr
         slot_clear(s);
         pthread_mutex_lock(&p.mu);
         p.tail++;
-        pthread_cond_broadcast(&p.cv);
+        pthread_cond_signal(&p.space);
         if (stop) {
             p.stop = 1;
-            pthread_cond_broadcast(&p.cv);
+            pthread_cond_broadcast(&p.space);
+            pthread_cond_broadcast(&p.filled);
             break;
         }
     }
@@ -696,7 +704,9 @@ static int run_threads(run_state *rs, as_reader *r, int nworkers, as_error *rerr
     free(p.ring);
     free(wt);
     pthread_mutex_destroy(&p.mu);
-    pthread_cond_destroy(&p.cv);
+    pthread_cond_destroy(&p.space);
+    pthread_cond_destroy(&p.filled);
+    pthread_cond_destroy(&p.done);
     return rc;
 }
 
