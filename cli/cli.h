@@ -12,6 +12,9 @@
 int as_cli_canon(int argc, char **argv);
 int as_cli_predict(int argc, char **argv);
 int as_cli_rules(int argc, char **argv);
+int as_cli_check(int argc, char **argv);
+int as_cli_plan(int argc, char **argv);
+int as_cli_annotate(int argc, char **argv);
 
 /* Prints "addsite <cmd>: line L, column C: <code>: <message>" and, when text is given, the
  * text and a caret under err->offset (columns are 1-based: column = offset + 1). */

@@ -19,6 +19,9 @@ static const command commands[] = {
     {"canon", as_cli_canon, "write canonical SMILES, one line per input line"},
     {"predict", as_cli_predict, "predict the products of one substrate and reagent set"},
     {"rules", as_cli_rules, "list the reaction rule table"},
+    {"check", as_cli_check, "judge a recorded product against the prediction"},
+    {"plan", as_cli_plan, "rank the reagent sets that give a wanted product"},
+    {"annotate", as_cli_annotate, "annotate a reaction file, one output record per input"},
 };
 
 static void usage(FILE *f)
