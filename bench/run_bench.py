@@ -52,7 +52,7 @@ def main():
     for n in [int(x) for x in a.sizes.split(',')]:
         path = corpus(a.work, n)
         for j in (1, 2):
-            dt, rss, rc = run([a.addsite, 'annotate', '-j', str(j), '--errors', 'ignore', '-'],
+            dt, rss, rc = run([a.addsite, 'annotate', '-j', str(j), '--on-error', 'ignore', '-'],
                               path)
             if rc not in (0, 3):
                 print('annotate failed with exit status %d' % rc)
