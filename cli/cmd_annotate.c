@@ -744,6 +744,7 @@ int as_cli_annotate(int argc, char **argv)
     config cfg;
     memset(&cfg, 0, sizeof cfg);
     as_check_opts_init(&cfg.opts);
+    cfg.opts.predict.rationale = 0; /* annotate never prints the rationale */
     cfg.out_format = AS_FMT_JSONL;
     as_reader_opts ropts;
     as_reader_opts_init(&ropts);

@@ -81,6 +81,8 @@ void as_predict_opts_init(as_predict_opts *o)
     o->temp_c = NAN;
     o->min_share = 0.5;
     o->max_products = 8;
+    o->rationale = 1;
+    o->substrate_smiles = NULL;
 }
 
 static char *xstrdup(const char *s)
@@ -927,7 +929,13 @@ as_status as_predict(const as_rules *rules, const as_mol *substrate,
     o->equiv = opts->equiv > 0 ? opts->equiv : match->equiv > 0 ? match->equiv : 1.0;
     cands cl = {0, 0, NULL}, next = {0, 0, NULL};
     as_adducts *first_run = NULL;
-    as_status st = as_canon_smiles(substrate, NULL, &o->substrate, err);
+    as_status st = AS_OK;
+    if (opts->substrate_smiles) {
+        if (!(o->substrate = xstrdup(opts->substrate_smiles)))
+            st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    } else {
+        st = as_canon_smiles(substrate, NULL, &o->substrate, err);
+    }
     if (st != AS_OK)
         goto fail;
     st = as_sites_find(substrate, &o->sites, err);
@@ -1025,6 +1033,8 @@ as_status as_predict(const as_rules *rules, const as_mol *substrate,
     o->nproducts = keep;
     cands_clear(&cl);
 
+    if (!opts->rationale)
+        goto done;
     if (rationale_sites(o) || rationale_mechanism(o, first_run) ||
         (o->nreact > 1 &&
          say(o, "The next C=C (by the same ranking) then reacts in the same way with the "
@@ -1053,6 +1063,7 @@ as_status as_predict(const as_rules *rules, const as_mol *substrate,
             goto fail;
         }
     }
+done:
     as_adducts_free(first_run);
     *out = o;
     return AS_OK;

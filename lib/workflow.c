@@ -940,6 +940,16 @@ as_status as_check_record(const as_rules *rules, const as_check_input *in,
             if ((st = parse_piece(rpieces.v[i], &m, err)) != AS_OK)
                 goto fail;
             int a = has_alkene(m, err), nc = count_carbons(m);
+            /* the piece that is the substrate so far is kept: it is not parsed twice */
+            if (a > 0 && nalk == 0) {
+                as_mol_free(sub);
+                sub = m;
+                m = NULL;
+            } else if (a == 0 && nalk == 0 && nc > most_c) {
+                as_mol_free(sub);
+                sub = m;
+                m = NULL;
+            }
             as_mol_free(m);
             if (a < 0) {
                 st = err ? err->code : AS_ERR_NOMEM;
@@ -959,8 +969,6 @@ as_status as_check_record(const as_rules *rules, const as_check_input *in,
                 sub_i = i;
             }
         }
-        if ((st = parse_piece(rpieces.v[sub_i], &sub, err)) != AS_OK)
-            goto fail;
         for (int i = 0; i < rpieces.n; i++)
             if (i != sub_i && strv_push(&reag, xstrdup(rpieces.v[i]))) {
                 st = nomem(err);
@@ -1046,6 +1054,11 @@ as_status as_check_record(const as_rules *rules, const as_check_input *in,
     }
 
     *field = NULL;
+    /* the substrate piece is already canonical (split_components wrote it without maps, so
+     * it has none): as_predict need not write it again */
+    as_check_opts known = *opts;
+    known.predict.substrate_smiles = c->substrate;
+    opts = &known;
     st = as_predict(rules, sub, &c->match, &opts->predict, &c->outcome, err);
     if (st == AS_ERR_NO_SITE) {
         as_error_clear(err);

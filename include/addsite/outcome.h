@@ -30,6 +30,11 @@ typedef struct as_predict_opts {
     double min_share;     /* products estimated below this percent are left out (default 0.5;
                              published minor products are always kept) */
     int max_products;     /* at most this many products (default 8) */
+    int rationale;        /* 1 (default): write the rationale sentences; 0: leave them out
+                             (nrationale = 0), for callers that never show them */
+    const char *substrate_smiles; /* the substrate's canonical SMILES (as_canon_smiles with
+                             default options) when the caller already has it, borrowed and
+                             copied; NULL (default): computed here */
 } as_predict_opts;
 
 void as_predict_opts_init(as_predict_opts *o);
