@@ -289,8 +289,9 @@ static void set_error(slot *s, as_status code, const char *field, long column, c
     snprintf(s->err.msg, sizeof s->err.msg, fmt, arg);
 }
 
-/* Annotates one slot (pure: the result depends on the slot and the configuration only). */
-static void annotate(const config *cfg, slot *s)
+/* Annotates one slot (pure: the result depends on the slot and the configuration only;
+ * cache is the calling thread's reagent memo, or NULL). */
+static void annotate(const config *cfg, as_check_cache *cache, slot *s)
 {
     const char *notes1[2];
     int nn = 0;
@@ -322,7 +323,9 @@ static void annotate(const config *cfg, slot *s)
     const char *field = NULL;
     as_error err;
     as_error_clear(&err);
-    as_status st = as_check_record(cfg->rules, &in, &cfg->opts, &c, &field, &err);
+    as_check_opts opts = cfg->opts;
+    opts.cache = cache;
+    as_status st = as_check_record(cfg->rules, &in, &opts, &c, &field, &err);
     if (st == AS_ERR_EMPTY) {
         s->status = ST_SKIPPED;
         notes1[nn++] = err.msg;
@@ -560,19 +563,21 @@ static void *reader_main(void *arg)
 static void *worker_main(void *arg)
 {
     pipeline *p = arg;
+    as_check_cache *cache = as_check_cache_new(); /* NULL: no memo, same results */
     pthread_mutex_lock(&p->mu);
     for (;;) {
         while (!p->stop && p->work == p->head && !p->eof)
             pthread_cond_wait(&p->filled, &p->mu);
         if (p->stop || p->work == p->head) {
             pthread_mutex_unlock(&p->mu);
+            as_check_cache_free(cache);
             return NULL;
         }
         slot *s = &p->ring[p->work % p->cap];
         p->work++;
         s->state = 2;
         pthread_mutex_unlock(&p->mu);
-        annotate(p->cfg, s);
+        annotate(p->cfg, cache, s);
         pthread_mutex_lock(&p->mu);
         s->state = 3;
         pthread_cond_signal(&p->done);
@@ -615,24 +620,31 @@ static int run_serial(run_state *rs, as_reader *r, as_error *rerr)
 {
     slot s;
     memset(&s, 0, sizeof s);
+    as_check_cache *cache = as_check_cache_new(); /* NULL: no memo, same results */
+    int rc = 0;
     for (;;) {
         as_record rec;
-        if (as_reader_next(r, &rec, rerr) != AS_OK)
-            return -1;
+        if (as_reader_next(r, &rec, rerr) != AS_OK) {
+            rc = -1;
+            break;
+        }
         if (rec.at_end)
-            return 0;
+            break;
         if (slot_fill(&s, &rec, rs->cfg->keep_columns)) {
             slot_clear(&s);
             rerr->code = AS_ERR_NOMEM;
             snprintf(rerr->msg, sizeof rerr->msg, "out of memory");
-            return -1;
+            rc = -1;
+            break;
         }
-        annotate(rs->cfg, &s);
+        annotate(rs->cfg, cache, &s);
         int stop = emit(rs, &s);
         slot_clear(&s);
         if (stop)
-            return 0;
+            break;
     }
+    as_check_cache_free(cache);
+    return rc;
 }
 
 static int run_threads(run_state *rs, as_reader *r, int nworkers, as_error *rerr)

@@ -15,6 +15,7 @@
 #include <cjson/cJSON.h>
 #include <math.h>
 #include <stdarg.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -53,6 +54,77 @@ void as_check_opts_init(as_check_opts *o)
 {
     as_predict_opts_init(&o->predict);
     o->strict_stereo = 0;
+    o->cache = NULL;
+}
+
+/* ---------------------------------------------------------------- reagent memo */
+
+/* Direct-mapped by a hash of the text; a slot holds one recognised text (failures are not
+ * kept: their messages are built afresh). 64 slots hold every reagent text of a typical
+ * reaction file. */
+#define CACHE_SLOTS 64
+
+typedef struct cache_slot {
+    char *text;             /* owned; NULL when empty */
+    size_t len;
+    const as_rules *rules;  /* the table the match points into */
+    as_reagent_match match;
+} cache_slot;
+
+struct as_check_cache {
+    cache_slot slot[CACHE_SLOTS];
+};
+
+as_check_cache *as_check_cache_new(void)
+{
+    return calloc(1, sizeof(as_check_cache));
+}
+
+void as_check_cache_free(as_check_cache *c)
+{
+    if (!c)
+        return;
+    for (int i = 0; i < CACHE_SLOTS; i++)
+        free(c->slot[i].text);
+    free(c);
+}
+
+static unsigned text_hash(const char *s, size_t n)
+{
+    uint32_t h = 2166136261u; /* FNV-1a */
+    for (size_t i = 0; i < n; i++) {
+        h ^= (unsigned char)s[i];
+        h *= 16777619u;
+    }
+    return (unsigned)(h % CACHE_SLOTS);
+}
+
+/* as_rules_recognise through the memo when there is one. */
+static as_status recognise(const as_rules *rules, as_check_cache *cache, const char *text,
+                           as_reagent_match *m, as_error *err)
+{
+    size_t n = strlen(text);
+    if (!cache)
+        return as_rules_recognise(rules, text, n, m, err);
+    cache_slot *e = &cache->slot[text_hash(text, n)];
+    if (e->text && e->rules == rules && e->len == n && !memcmp(e->text, text, n)) {
+        *m = e->match;
+        as_error_clear(err);
+        return AS_OK;
+    }
+    as_status st = as_rules_recognise(rules, text, n, m, err);
+    if (st != AS_OK)
+        return st;
+    char *copy = malloc(n + 1);
+    if (copy) { /* out of memory only costs the memo */
+        memcpy(copy, text, n + 1);
+        free(e->text);
+        e->text = copy;
+        e->len = n;
+        e->rules = rules;
+        e->match = *m;
+    }
+    return AS_OK;
 }
 
 /* ---------------------------------------------------------------- small helpers */
@@ -988,8 +1060,7 @@ as_status as_check_record(const as_rules *rules, const as_check_input *in,
         int have_agents = apieces.n + reag.n > 0;
         if (!blank(in->reagents)) {
             *field = "reagents";
-            if ((st = as_rules_recognise(rules, in->reagents, strlen(in->reagents), &m, err)) !=
-                AS_OK)
+            if ((st = recognise(rules, opts->cache, in->reagents, &m, err)) != AS_OK)
                 goto fail;
             c->reagent_source = AS_REAGENTS_TEXT;
             if (have_agents) {
@@ -1022,8 +1093,7 @@ as_status as_check_record(const as_rules *rules, const as_check_input *in,
                 free(agents);
             }
             *field = "default_reagents";
-            if ((st = as_rules_recognise(rules, in->default_reagents,
-                                         strlen(in->default_reagents), &m, err)) != AS_OK)
+            if ((st = recognise(rules, opts->cache, in->default_reagents, &m, err)) != AS_OK)
                 goto fail;
             c->reagent_source = AS_REAGENTS_DEFAULT;
         } else if (have_agents) {

@@ -55,11 +55,22 @@ typedef enum as_verdict {
  * "not_addition", "no_alkene"; "?" when out of range. */
 const char *as_verdict_name(as_verdict v);
 
+/* A memo of reagent texts already recognised, for one thread at a time (annotate keeps one
+ * per worker): reaction files repeat the same few reagent texts, and recognising one runs
+ * every rule's patterns. Results are the same with or without it. */
+typedef struct as_check_cache as_check_cache;
+
+/* Returns new (NULL when out of memory); caller frees with as_check_cache_free. */
+as_check_cache *as_check_cache_new(void);
+void as_check_cache_free(as_check_cache *c);
+
 typedef struct as_check_opts {
     as_predict_opts predict;  /* prediction options (defaults of as_predict_opts_init) */
     int strict_stereo;        /* 0 (default): the notebook rules above; 1: a recorded product
                                  must draw exactly the stereo the prediction fixes, no more,
                                  no less (up to the mirror image of a racemate) */
+    as_check_cache *cache;    /* NULL (default), or a memo used by this thread only (borrowed;
+                                 it must serve one rule table) */
 } as_check_opts;
 
 void as_check_opts_init(as_check_opts *o);
