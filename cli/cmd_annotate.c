@@ -428,7 +428,7 @@ static as_status write_slot(const config *cfg, as_writer *w, slot *s, as_error *
             }
             if (!errjson)
                 return AS_ERR_NOMEM;
-            as_kv ekv = {"error", AS_KV_JSON, errjson, 0, 0, 0.0};
+            as_kv ekv = {"error", AS_KV_JSON_COMPACT, errjson, 0, 0, 0.0};
             kv[n++] = ekv;
         } else {
             kv[n++] = as_kv_text("error", NULL);
@@ -449,7 +449,7 @@ static as_status write_slot(const config *cfg, as_writer *w, slot *s, as_error *
     kv[n++] = as_kv_text("reagent_source", s->source);
     kv[n++] = as_kv_text("major", s->major);
     if (jsonl && s->products_json) {
-        as_kv e = {"products", AS_KV_JSON, s->products_json, 0, 0, 0.0};
+        as_kv e = {"products", AS_KV_JSON_COMPACT, s->products_json, 0, 0, 0.0};
         kv[n++] = e;
     } else {
         kv[n++] = as_kv_text("products", jsonl ? NULL : s->products_text);
@@ -458,7 +458,7 @@ static as_status write_slot(const config *cfg, as_writer *w, slot *s, as_error *
     kv[n++] = as_kv_text("verdict", s->has_verdict ? as_verdict_name(s->verdict) : NULL);
     kv[n++] = as_kv_text("reason", s->reason);
     if (jsonl) {
-        as_kv e = {"notes", AS_KV_JSON, s->notes_json ? s->notes_json : "[]", 0, 0, 0.0};
+        as_kv e = {"notes", AS_KV_JSON_COMPACT, s->notes_json ? s->notes_json : "[]", 0, 0, 0.0};
         kv[n++] = e;
     } else {
         kv[n++] = as_kv_text("notes", s->notes_text ? s->notes_text : "");

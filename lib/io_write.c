@@ -129,6 +129,15 @@ static int sanitise(as_writer *w, const char *s, size_t n)
     const unsigned char *u = (const unsigned char *)s;
     size_t i = 0;
     while (i < n) {
+        size_t run = i;
+        while (run < n && u[run] != 0 && u[run] < 0x80)
+            run++;
+        if (run > i) { /* plain ASCII goes in one piece */
+            if (as_io_buf_put(&w->tmp, s + i, run - i) != 0)
+                return -1;
+            i = run;
+            continue;
+        }
         size_t k = as_io_utf8_seq(u + i, n - i);
         if (k == 0) {
             if (as_io_buf_put(&w->tmp, repl, 3) != 0)
@@ -342,63 +351,109 @@ static as_status put_table(as_writer *w, const as_kv *fields, size_t nfields,
 
 /* ==== JSON Lines ============================================================================ */
 
-/* A cJSON string item holding s[0..n) made valid UTF-8. */
-static cJSON *json_string(as_writer *w, const char *s, size_t n)
+/* The record is written straight into w->line, escaped exactly as cJSON_PrintUnformatted
+ * would write the same object (the output predates this writer and must not change): no
+ * tree is built. Only AS_KV_JSON values go through cJSON, to be checked and re-printed. */
+
+/* Appends s (up to its NUL) as a JSON string: '"' '\\' and the controls \b \f \n \r \t
+ * get their short escapes, other bytes below 0x20 \u00xx, everything else as it is. */
+static int json_put_string(as_io_buf *b, const char *s)
 {
-    if (sanitise(w, s, n) != 0)
-        return NULL;
-    return cJSON_CreateString(w->tmp.p);
+    static const char hex[] = "0123456789abcdef";
+    if (as_io_buf_putc(b, '"') != 0)
+        return -1;
+    const char *run = s;
+    for (const unsigned char *u = (const unsigned char *)s;; u++) {
+        unsigned c = *u;
+        if (c >= 0x20 && c != '"' && c != '\\')
+            continue;
+        if (as_io_buf_put(b, run, (size_t)((const char *)u - run)) != 0)
+            return -1;
+        if (c == 0)
+            break;
+        char e[6] = {'\\', 0, '0', '0', 0, 0};
+        size_t k = 2;
+        switch (c) {
+        case '"': e[1] = '"'; break;
+        case '\\': e[1] = '\\'; break;
+        case '\b': e[1] = 'b'; break;
+        case '\f': e[1] = 'f'; break;
+        case '\n': e[1] = 'n'; break;
+        case '\r': e[1] = 'r'; break;
+        case '\t': e[1] = 't'; break;
+        default:
+            e[1] = 'u';
+            e[4] = hex[c >> 4];
+            e[5] = hex[c & 15];
+            k = 6;
+        }
+        if (as_io_buf_put(b, e, k) != 0)
+            return -1;
+        run = (const char *)u + 1;
+    }
+    return as_io_buf_putc(b, '"');
 }
 
-static as_status json_item(as_writer *w, const as_kv *kv, cJSON **item, as_error *err)
+/* Appends the value of one field. */
+static as_status json_value(as_writer *w, const as_kv *kv, as_error *err)
 {
+    as_io_buf *b = &w->line;
     char num[40];
-    *item = NULL;
+    int bad = 0;
     switch (kv->kind) {
     case AS_KV_INT:
         snprintf(num, sizeof num, "%lld", kv->i);
-        *item = cJSON_CreateRaw(num);
+        bad = as_io_buf_put(b, num, strlen(num));
         break;
     case AS_KV_REAL:
-        if (isfinite(kv->d)) {
+        if (isfinite(kv->d))
             snprintf(num, sizeof num, "%.6g", kv->d);
-            *item = cJSON_CreateRaw(num);
-        } else {
-            *item = cJSON_CreateNull();
-        }
+        else
+            strcpy(num, "null");
+        bad = as_io_buf_put(b, num, strlen(num));
         break;
     case AS_KV_BOOL:
-        *item = cJSON_CreateBool(kv->i != 0);
+        bad = kv->i ? as_io_buf_put(b, "true", 4) : as_io_buf_put(b, "false", 5);
+        break;
+    case AS_KV_JSON_COMPACT:
+        if (!kv->text)
+            bad = as_io_buf_put(b, "null", 4);
+        else
+            bad = as_io_buf_put(b, kv->text, kv->len ? kv->len : strlen(kv->text));
         break;
     case AS_KV_JSON: {
         if (!kv->text) {
-            *item = cJSON_CreateNull();
+            bad = as_io_buf_put(b, "null", 4);
             break;
         }
         size_t n = kv->len ? kv->len : strlen(kv->text);
         const char *end = NULL;
-        *item = cJSON_ParseWithLengthOpts(kv->text, n, &end, 0);
+        cJSON *item = cJSON_ParseWithLengthOpts(kv->text, n, &end, 0);
         size_t at = (end && end >= kv->text) ? (size_t)(end - kv->text) : 0;
-        while (*item && at < n && (kv->text[at] == ' ' || kv->text[at] == '\t' ||
-                                   kv->text[at] == '\n' || kv->text[at] == '\r'))
+        while (item && at < n && (kv->text[at] == ' ' || kv->text[at] == '\t' ||
+                                  kv->text[at] == '\n' || kv->text[at] == '\r'))
             at++;
-        if (!*item || at < n) {
-            cJSON_Delete(*item);
-            *item = NULL;
+        if (!item || at < n) {
+            cJSON_Delete(item);
             return as_error_set(err, AS_ERR_SYNTAX, (long)at, -1,
                                 "field '%.60s' should hold JSON but does not (byte %zu)",
                                 kv->name ? kv->name : "", at + 1);
         }
-        return AS_OK;
+        char *text = cJSON_PrintUnformatted(item);
+        cJSON_Delete(item);
+        bad = !text || as_io_buf_put(b, text, strlen(text)) != 0;
+        cJSON_free(text);
+        break;
     }
     default:
         if (!kv->text)
-            *item = cJSON_CreateNull();
+            bad = as_io_buf_put(b, "null", 4);
         else
-            *item = json_string(w, kv->text, kv->len ? kv->len : strlen(kv->text));
+            bad = sanitise(w, kv->text, kv->len ? kv->len : strlen(kv->text)) != 0 ||
+                  json_put_string(b, w->tmp.p) != 0;
         break;
     }
-    if (!*item)
+    if (bad)
         return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory writing a record");
     return AS_OK;
 }
@@ -407,58 +462,46 @@ static as_status put_json(as_writer *w, const as_kv *fields, size_t nfields,
                           const char *const *carry_names, const char *const *carry_values,
                           size_t ncarry, as_error *err)
 {
-    cJSON *obj = cJSON_CreateObject();
-    if (!obj)
-        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory writing a record");
     as_status st = AS_OK;
-    char **used = calloc(nfields + ncarry + 1, sizeof *used);
+    char **used = NULL;
     size_t nused = 0;
-    if (!used)
+    as_io_buf *b = &w->line;
+    b->len = 0;
+    if (ncarry && !(used = calloc(nfields + ncarry + 1, sizeof *used)))
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory writing a record");
+    if (as_io_buf_putc(b, '{') != 0)
         st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory writing a record");
     for (size_t i = 0; i < nfields && st == AS_OK; i++) {
-        cJSON *item;
-        st = json_item(w, &fields[i], &item, err);
-        if (st != AS_OK)
-            break;
         const char *nm = fields[i].name ? fields[i].name : "";
-        used[nused] = strdup(nm);
-        if (!used[nused]) {
-            cJSON_Delete(item);
+        if ((i && as_io_buf_putc(b, ',') != 0) || json_put_string(b, nm) != 0 ||
+            as_io_buf_putc(b, ':') != 0) {
             st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory writing a record");
             break;
         }
-        nused++;
-        cJSON_AddItemToObject(obj, nm, item);
+        if ((st = json_value(w, &fields[i], err)) != AS_OK)
+            break;
+        if (used && !(used[nused++] = strdup(nm)))
+            st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory writing a record");
     }
     for (size_t i = 0; i < ncarry && st == AS_OK; i++) {
         const char *nm = carry_names && carry_names[i] ? carry_names[i] : "";
         const char *v = carry_values && carry_values[i] ? carry_values[i] : "";
         char *uniq = unique_name(used, nused, nm);
-        cJSON *item = uniq ? json_string(w, v, strlen(v)) : NULL;
-        if (!item) {
+        if (!uniq || (nfields + i && as_io_buf_putc(b, ',') != 0) ||
+            json_put_string(b, uniq) != 0 || as_io_buf_putc(b, ':') != 0 ||
+            sanitise(w, v, strlen(v)) != 0 || json_put_string(b, w->tmp.p) != 0) {
             free(uniq);
             st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory writing a record");
             break;
         }
         used[nused++] = uniq;
-        cJSON_AddItemToObject(obj, uniq, item);
-    }
-    char *text = NULL;
-    if (st == AS_OK) {
-        text = cJSON_PrintUnformatted(obj);
-        if (!text)
-            st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory writing a record");
     }
     if (st == AS_OK) {
-        w->line.len = 0;
-        if (as_io_buf_put(&w->line, text, strlen(text)) != 0 ||
-            as_io_buf_put(&w->line, eol(w), strlen(eol(w))) != 0)
+        if (as_io_buf_putc(b, '}') != 0 || as_io_buf_put(b, eol(w), strlen(eol(w))) != 0)
             st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory writing a record");
         else
-            st = as_outfile_write(w->out, w->line.p, w->line.len, err);
+            st = as_outfile_write(w->out, b->p, b->len, err);
     }
-    cJSON_free(text);
-    cJSON_Delete(obj);
     for (size_t i = 0; used && i < nused; i++)
         free(used[i]);
     free(used);

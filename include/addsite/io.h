@@ -236,8 +236,11 @@ typedef enum as_kv_kind {
     AS_KV_INT,        /* i */
     AS_KV_REAL,       /* d (written with up to 6 significant digits; NaN/inf as null) */
     AS_KV_BOOL,       /* i != 0 */
-    AS_KV_JSON        /* text is JSON: embedded as such in JSON Lines (error if invalid),
+    AS_KV_JSON,       /* text is JSON: embedded as such in JSON Lines (error if invalid),
                          written as text in TSV/CSV */
+    AS_KV_JSON_COMPACT /* text is valid JSON exactly as cJSON_PrintUnformatted writes it (the
+                         caller vouches for that): copied unchecked into JSON Lines, written
+                         as text in TSV/CSV */
 } as_kv_kind;
 
 /* One output field. Strings are borrowed for the duration of the call. */
