@@ -78,6 +78,7 @@ typedef struct canon_ctx {
     const as_mol *m;
     const as_canon_opts *o;
     int n;
+    void *block;       /* the one allocation holding every array below */
     int *cls;          /* constitutional classes (refined, no tie breaking) */
     char *real_tetra;  /* per tetra record */
     char *real_db;     /* per dbs record */
@@ -1114,7 +1115,9 @@ static int ring_bond_count(const as_mol *m, int a)
     return k;
 }
 
-static void explore(canon_ctx *c, int *rank)
+/* Breaks the ties of rank (refined first, unless `refined` says it is already equitable:
+ * refining an equitable partition changes nothing). */
+static void explore(canon_ctx *c, int *rank, int refined)
 {
     int n = c->n;
     int *work = malloc((size_t)(n ? n : 1) * sizeof(int));
@@ -1126,7 +1129,9 @@ static void explore(canon_ctx *c, int *rank)
         return;
     }
     for (;;) {
-        refine(c, rank);
+        if (!refined)
+            refine(c, rank);
+        refined = 0;
         memset(cnt, 0, (size_t)n * sizeof(int));
         for (int i = 0; i < n; i++)
             cnt[rank[i]]++;
@@ -1178,7 +1183,7 @@ static void explore(canon_ctx *c, int *rank)
                 for (int j = 0; j < n; j++)
                     if (work[j] == r && j != i)
                         work[j] = r + 1;
-                explore(c, work);
+                explore(c, work, 0);
                 if (c->st != AS_OK)
                     break;
             }
@@ -1203,17 +1208,14 @@ void as_canon_opts_init(as_canon_opts *o)
 
 static void ctx_free(canon_ctx *c)
 {
-    free(c->cls);
-    free(c->real_tetra);
-    free(c->real_db);
-    free(c->near_stereo);
-    free(c->order);
-    free(c->tmp);
-    free(c->scratch);
-    free(c->wblock);
-    free(c->wrb);
-    free(c->wdir);
+    free(c->block);
     free(c->best);
+}
+
+/* Bytes of n items of size sz, rounded up to keep the next array 16-byte aligned. */
+static size_t part(size_t n, size_t sz)
+{
+    return (n * sz + 15) & ~(size_t)15;
 }
 
 static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
@@ -1223,20 +1225,32 @@ static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
     c->o = o;
     c->n = m->natoms;
     size_t na = (size_t)(m->natoms ? m->natoms : 1);
-    c->cls = malloc(na * sizeof(int));
-    c->real_tetra = calloc((size_t)(m->ntetra ? m->ntetra : 1), 1);
-    c->real_db = calloc((size_t)(m->ndbs ? m->ndbs : 1), 1);
-    c->near_stereo = calloc(na, 1);
-    c->order = malloc(na * sizeof(int));
-    c->tmp = malloc(na * sizeof(int));
-    c->scratch = malloc(na * 11 * sizeof(int));
+    size_t nt = (size_t)(m->ntetra ? m->ntetra : 1), nd = (size_t)(m->ndbs ? m->ndbs : 1);
     size_t nbd = (size_t)(m->nbonds ? m->nbonds : 1);
-    c->wblock = malloc((na * (11 + AS_MAX_DEGREE) + 1 + nbd) * sizeof(int));
-    c->wrb = malloc(nbd * sizeof(ringbond));
-    c->wdir = malloc(nbd);
-    if (!c->cls || !c->real_tetra || !c->real_db || !c->near_stereo || !c->order || !c->tmp || !c->scratch ||
-        !c->wblock || !c->wrb || !c->wdir)
+    /* one block for every array: a molecule costs one allocation, not ten */
+    size_t sz_cls = part(na, sizeof(int)), sz_tetra = part(nt, 1), sz_db = part(nd, 1);
+    size_t sz_near = part(na, 1), sz_order = part(na, sizeof(int)), sz_tmp = part(na, sizeof(int));
+    size_t sz_scratch = part(na * 11, sizeof(int));
+    size_t sz_wblock = part(na * (11 + AS_MAX_DEGREE) + 1 + nbd, sizeof(int));
+    size_t sz_wrb = part(nbd, sizeof(ringbond)), sz_wdir = part(nbd, 1);
+    char *b = malloc(sz_cls + sz_tetra + sz_db + sz_near + sz_order + sz_tmp + sz_scratch +
+                     sz_wblock + sz_wrb + sz_wdir);
+    if (!b)
         return AS_ERR_NOMEM;
+    c->block = b;
+    c->cls = (int *)(void *)b, b += sz_cls;
+    c->real_tetra = b, b += sz_tetra;
+    c->real_db = b, b += sz_db;
+    c->near_stereo = b, b += sz_near;
+    c->order = (int *)(void *)b, b += sz_order;
+    c->tmp = (int *)(void *)b, b += sz_tmp;
+    c->scratch = (int *)(void *)b, b += sz_scratch;
+    c->wblock = (int *)(void *)b, b += sz_wblock;
+    c->wrb = (ringbond *)(void *)b, b += sz_wrb;
+    c->wdir = (signed char *)b;
+    memset(c->real_tetra, 0, nt);
+    memset(c->real_db, 0, nd);
+    memset(c->near_stereo, 0, na);
     initial_ranks(c, c->cls);
     if (c->st != AS_OK)
         return c->st;
@@ -1365,8 +1379,9 @@ as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out
             st = AS_ERR_NOMEM;
     }
     if (st == AS_OK) {
+        /* c.cls is equitable: it comes from refine() in ctx_init or in stereo_refine */
         memcpy(rank, c.cls, (size_t)m->natoms * sizeof(int));
-        explore(&c, rank);
+        explore(&c, rank, 1);
         st = c.st;
     }
     if (st == AS_OK && c.best) {
