@@ -18,6 +18,7 @@
 #include <errno.h>
 #include <math.h>
 #include <pthread.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -57,6 +58,8 @@ static void help(FILE *f)
           "                    failed; ignore: the same, exit 0; stop: end after the first\n"
           "                    failed record (it is written), exit 1, -o FILE not kept\n"
           "  --strict-stereo   stereo must be drawn exactly as the conditions fix it\n"
+          "  --no-memo         do not reuse the results of recent identical records (each\n"
+          "                    worker remembers 4096; the output is the same either way)\n"
           "  --progress        progress line on stderr (default: when stderr is a terminal)\n"
           "  -q, --quiet       no summary or progress on stderr\n"
           "  --rules DIR       rule table directory\n"
@@ -204,6 +207,7 @@ typedef struct config {
     const char *default_reagents;
     as_format out_format;
     int keep_columns;
+    int memo;               /* 1: each worker keeps a record memo */
 } config;
 
 static char *products_json(const as_outcome *o)
@@ -386,6 +390,186 @@ static void annotate(const config *cfg, as_check_cache *cache, slot *s)
     as_check_free(c);
 }
 
+/* ---------------------------------------------------------------- record memo */
+
+/* Reaction files repeat records (the same substrate with the same reagents, often many lines
+ * apart). Each worker remembers the outcome fields of its last MEMO_CAP annotated records,
+ * keyed by the input fields that decide them (reaction, substrate, product and reagent
+ * text; the default reagents are fixed for the run), and replaces the oldest unused entry
+ * when full (the clock algorithm). Records with a reader warning, skipped records, errors
+ * and substrates without C=C are never kept: their output names the line. */
+#define MEMO_CAP 4096
+#define MEMO_BUCKETS 8192 /* power of two */
+
+typedef struct memo_entry {
+    char *key;               /* owned; NULL when the entry is free */
+    size_t klen;
+    unsigned hash;
+    int next;                /* next entry in the bucket, -1 at the end */
+    int used;                /* clock bit */
+    int has_verdict;
+    as_verdict verdict;
+    char *f[11];             /* the slot's outcome strings, in MEMO_FIELDS order (owned) */
+} memo_entry;
+
+typedef struct memo {
+    memo_entry e[MEMO_CAP];
+    int bucket[MEMO_BUCKETS];
+    int n, hand;
+    char *kbuf;              /* key being built */
+    size_t kcap;
+} memo;
+
+/* ORDER MEMO_FIELDS: the slot fields a memo entry holds. */
+#define MEMO_FIELDS(s)                                                                         \
+    {&(s)->substrate_out, &(s)->reaction_id, &(s)->reagents_out, &(s)->source, &(s)->major,   \
+     &(s)->products_json, &(s)->products_text, &(s)->recorded, &(s)->reason,                  \
+     &(s)->notes_json, &(s)->notes_text}
+
+static memo *memo_new(void)
+{
+    memo *m = calloc(1, sizeof *m);
+    if (!m)
+        return NULL;
+    for (int i = 0; i < MEMO_BUCKETS; i++)
+        m->bucket[i] = -1;
+    return m;
+}
+
+static void memo_entry_clear(memo_entry *e)
+{
+    free(e->key);
+    for (int i = 0; i < 11; i++)
+        free(e->f[i]);
+    memset(e, 0, sizeof *e);
+}
+
+static void memo_free(memo *m)
+{
+    if (!m)
+        return;
+    for (int i = 0; i < m->n; i++)
+        memo_entry_clear(&m->e[i]);
+    free(m->kbuf);
+    free(m);
+}
+
+static int key_add(memo *m, size_t *len, const char *t)
+{
+    size_t n = t ? strlen(t) : 0;
+    if (*len + n + 2 > m->kcap) {
+        size_t cap = (*len + n + 2) * 2;
+        char *k = realloc(m->kbuf, cap);
+        if (!k)
+            return -1;
+        m->kbuf = k;
+        m->kcap = cap;
+    }
+    m->kbuf[(*len)++] = t ? '1' : '0'; /* absent and empty differ */
+    memcpy(m->kbuf + *len, t ? t : "", n);
+    *len += n;
+    m->kbuf[(*len)++] = '\0';
+    return 0;
+}
+
+/* Builds the key of slot s in m->kbuf; returns its length, 0 when s is not to be memoised. */
+static size_t memo_key(memo *m, const slot *s, unsigned *hash)
+{
+    if (!m || s->rec_err.code != AS_OK || s->skipped || s->warning[0])
+        return 0;
+    size_t len = 0;
+    if (key_add(m, &len, s->reaction) || key_add(m, &len, s->substrate) ||
+        key_add(m, &len, s->product) || key_add(m, &len, s->reagents))
+        return 0;
+    uint32_t h = 2166136261u; /* FNV-1a */
+    for (size_t i = 0; i < len; i++) {
+        h ^= (unsigned char)m->kbuf[i];
+        h *= 16777619u;
+    }
+    *hash = h;
+    return len;
+}
+
+/* Fills s from the memo; 1 when found. */
+static int memo_get(memo *m, slot *s, size_t klen, unsigned hash)
+{
+    for (int i = m->bucket[hash & (MEMO_BUCKETS - 1)]; i >= 0; i = m->e[i].next) {
+        memo_entry *e = &m->e[i];
+        if (e->hash != hash || e->klen != klen || memcmp(e->key, m->kbuf, klen))
+            continue;
+        char **f[11] = MEMO_FIELDS(s);
+        for (int k = 0; k < 11; k++) {
+            if (e->f[k] && !(*f[k] = dup_or_null(e->f[k]))) {
+                for (int j = 0; j < k; j++) {
+                    free(*f[j]);
+                    *f[j] = NULL;
+                }
+                return 0;
+            }
+        }
+        s->status = ST_ANNOTATED;
+        s->has_verdict = e->has_verdict;
+        s->verdict = e->verdict;
+        e->used = 1;
+        return 1;
+    }
+    return 0;
+}
+
+/* Remembers the annotated slot s under the key in m->kbuf. */
+static void memo_put(memo *m, const slot *s, size_t klen, unsigned hash)
+{
+    int i;
+    if (m->n < MEMO_CAP) {
+        i = m->n++;
+    } else {
+        while (m->e[m->hand].used) {
+            m->e[m->hand].used = 0;
+            m->hand = (m->hand + 1) % MEMO_CAP;
+        }
+        i = m->hand;
+        m->hand = (m->hand + 1) % MEMO_CAP;
+        memo_entry *old = &m->e[i];
+        if (old->key) { /* linked in its bucket */
+            int *link = &m->bucket[old->hash & (MEMO_BUCKETS - 1)];
+            while (*link != i)
+                link = &m->e[*link].next;
+            *link = old->next;
+        }
+        memo_entry_clear(old);
+    }
+    memo_entry *e = &m->e[i];
+    char *const *f[11] = MEMO_FIELDS(s);
+    int bad = !(e->key = malloc(klen));
+    for (int k = 0; k < 11 && !bad; k++)
+        bad = *f[k] && !(e->f[k] = dup_or_null(*f[k]));
+    if (bad) { /* out of memory only costs the memo: the entry stays free and unlinked */
+        memo_entry_clear(e);
+        return;
+    }
+    memcpy(e->key, m->kbuf, klen);
+    e->klen = klen;
+    e->hash = hash;
+    e->has_verdict = s->has_verdict;
+    e->verdict = s->verdict;
+    e->used = 0;
+    int *b = &m->bucket[hash & (MEMO_BUCKETS - 1)];
+    e->next = *b;
+    *b = i;
+}
+
+/* annotate() through the worker's memo (NULL: none). */
+static void annotate_memo(const config *cfg, as_check_cache *cache, memo *m, slot *s)
+{
+    unsigned hash = 0;
+    size_t klen = memo_key(m, s, &hash);
+    if (klen && memo_get(m, s, klen, hash))
+        return;
+    annotate(cfg, cache, s);
+    if (klen && s->status == ST_ANNOTATED)
+        memo_put(m, s, klen, hash);
+}
+
 /* ---------------------------------------------------------------- writing */
 
 typedef struct counts {
@@ -564,6 +748,7 @@ static void *worker_main(void *arg)
 {
     pipeline *p = arg;
     as_check_cache *cache = as_check_cache_new(); /* NULL: no memo, same results */
+    memo *m = p->cfg->memo ? memo_new() : NULL;
     pthread_mutex_lock(&p->mu);
     for (;;) {
         while (!p->stop && p->work == p->head && !p->eof)
@@ -571,13 +756,14 @@ static void *worker_main(void *arg)
         if (p->stop || p->work == p->head) {
             pthread_mutex_unlock(&p->mu);
             as_check_cache_free(cache);
+            memo_free(m);
             return NULL;
         }
         slot *s = &p->ring[p->work % p->cap];
         p->work++;
         s->state = 2;
         pthread_mutex_unlock(&p->mu);
-        annotate(p->cfg, cache, s);
+        annotate_memo(p->cfg, cache, m, s);
         pthread_mutex_lock(&p->mu);
         s->state = 3;
         pthread_cond_signal(&p->done);
@@ -621,6 +807,7 @@ static int run_serial(run_state *rs, as_reader *r, as_error *rerr)
     slot s;
     memset(&s, 0, sizeof s);
     as_check_cache *cache = as_check_cache_new(); /* NULL: no memo, same results */
+    memo *m = rs->cfg->memo ? memo_new() : NULL;
     int rc = 0;
     for (;;) {
         as_record rec;
@@ -637,13 +824,14 @@ static int run_serial(run_state *rs, as_reader *r, as_error *rerr)
             rc = -1;
             break;
         }
-        annotate(rs->cfg, cache, &s);
+        annotate_memo(rs->cfg, cache, m, &s);
         int stop = emit(rs, &s);
         slot_clear(&s);
         if (stop)
             break;
     }
     as_check_cache_free(cache);
+    memo_free(m);
     return rc;
 }
 
@@ -757,6 +945,7 @@ int as_cli_annotate(int argc, char **argv)
     memset(&cfg, 0, sizeof cfg);
     as_check_opts_init(&cfg.opts);
     cfg.opts.predict.rationale = 0; /* annotate never prints the rationale */
+    cfg.memo = 1;
     cfg.out_format = AS_FMT_JSONL;
     as_reader_opts ropts;
     as_reader_opts_init(&ropts);
@@ -828,6 +1017,8 @@ int as_cli_annotate(int argc, char **argv)
                 policy = POLICY_IGNORE;
             else
                 return usage_error("--on-error needs report, stop or ignore, not", v);
+        } else if (!strcmp(a, "--no-memo")) {
+            cfg.memo = 0;
         } else if (!strcmp(a, "--strict-stereo")) {
             cfg.opts.strict_stereo = 1;
         } else if (!strcmp(a, "--progress")) {
