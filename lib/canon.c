@@ -167,12 +167,13 @@ static void refine(canon_ctx *c, int *rank)
     memset(inq, 0, (size_t)n * sizeof(int));
     int qhead = 0, qlen = 0;
     for (int s = 0; s < n; s += cell_len[s]) {
-        queue[(qhead + qlen++) % n] = s;
+        queue[qlen++] = s; /* qhead is 0 here */
         inq[s] = 1;
     }
     while (qlen) {
         int w = queue[qhead];
-        qhead = (qhead + 1) % n;
+        if (++qhead == n) /* a ring of n: no cell is queued twice */
+            qhead = 0;
         qlen--;
         inq[w] = 0;
         int nt = 0, ntc = 0;
@@ -258,7 +259,8 @@ static void refine(canon_ctx *c, int *rank)
                     continue;
                 if (!was_queued && fs == largest)
                     continue;
-                queue[(qhead + qlen++) % n] = fs;
+                int qt = qhead + qlen++;
+                queue[qt < n ? qt : qt - n] = fs;
                 inq[fs] = 1;
             }
         }
