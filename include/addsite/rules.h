@@ -1,4 +1,4 @@
-/* addsite/rules.h — the reaction rule table: reactions/*.json loaded once, reagents recognised.
+/* addsite/rules.h — the reaction rule table: reactions/<id>.json loaded once, reagents recognised.
  * Owns: loading and validating rule files (cJSON), compiled reagent patterns (PCRE2), reagent
  * recognition from text and from agent SMILES. Must not: build molecules.
  *
@@ -44,6 +44,9 @@ typedef struct as_rule_variant {
     const char *workup;   /* AS_REGIO_CLEAVE only: "reductive" or "oxidative"; else NULL */
     const char *reagent_smiles; /* the atoms added, as SMILES ("Br", "O", "[H][H]") for the
                                    formula check; may be NULL */
+    int nagents;
+    const char *const *agents;  /* agent sets recognised in reaction SMILES, as written in the
+                                   rule file ("B.C1CCOC1"); nagents entries */
 } as_rule_variant;
 
 /* A published selectivity figure: for substrates of class `cls` the product with `first` on
@@ -79,6 +82,11 @@ typedef struct as_rule {
     int nhazards;
     const char *const *hazards;   /* one caution sentence each */
     const char *file;         /* file it was loaded from ("<embedded>/hx.json") */
+    const char *facial;       /* C=C in the two-carbon bridge of a bicyclo[2.2.1] system:
+                                 "exo" (the groups arrive from the exo face, syn to the
+                                 one-carbon bridge), "not_predicted" (facial_source says why),
+                                 or NULL (not stated: not predicted) */
+    const char *facial_source;/* citation for `facial`, or the reason it is not predicted */
 } as_rule;
 
 typedef struct as_rules as_rules;   /* opaque table */

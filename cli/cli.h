@@ -1,0 +1,24 @@
+/* cli.h — the command-line front end: one function per subcommand, wired by cli/main.c.
+ * Owns: argument parsing and printing. Must not: hold chemistry (it calls the library). */
+#ifndef ADDSITE_CLI_H
+#define ADDSITE_CLI_H
+
+#include <stdio.h>
+
+#include "addsite/status.h"
+
+/* Each subcommand gets argv with argv[0] = its own name. Exit status: 0 ok, 1 some input
+ * failed (or a check disagreed), 2 usage or input error; each command documents its own. */
+int as_cli_canon(int argc, char **argv);
+int as_cli_predict(int argc, char **argv);
+int as_cli_rules(int argc, char **argv);
+
+/* Prints "addsite <cmd>: line L, column C: <code>: <message>" and, when text is given, the
+ * text and a caret under err->offset (columns are 1-based: column = offset + 1). */
+void as_cli_print_error(FILE *f, const char *cmd, long line, const char *text, size_t len,
+                        const as_error *err);
+
+/* The closing line of every human-readable report that mentions reagents. */
+extern const char as_cli_safety_footer[];
+
+#endif

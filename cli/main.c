@@ -1,0 +1,100 @@
+/* main.c — the addsite command: subcommand dispatch, version, help, error printing.
+ * Owns: choosing a subcommand and the shared error/caret printer. Must not: hold chemistry. */
+#include "cli.h"
+
+#include <stdio.h>
+#include <string.h>
+
+const char as_cli_safety_footer[] =
+    "Before any bench work: read the safety data sheet of every reagent, follow your "
+    "institution's chemical hygiene plan and local regulations.";
+
+typedef struct command {
+    const char *name;
+    int (*run)(int argc, char **argv);
+    const char *summary;
+} command;
+
+static const command commands[] = {
+    {"canon", as_cli_canon, "write canonical SMILES, one line per input line"},
+    {"predict", as_cli_predict, "predict the products of one substrate and reagent set"},
+    {"rules", as_cli_rules, "list the reaction rule table"},
+};
+
+static void usage(FILE *f)
+{
+    fprintf(f, "addsite %s — where and how reagents add across C=C bonds\n\n", AS_VERSION);
+    fprintf(f, "usage: addsite COMMAND [options] [arguments]\n\ncommands:\n");
+    for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
+        fprintf(f, "  %-10s %s\n", commands[i].name, commands[i].summary);
+    fprintf(f, "\n'addsite help COMMAND' or 'addsite COMMAND --help' describes one command.\n");
+}
+
+void as_cli_print_error(FILE *f, const char *cmd, long line, const char *text, size_t len,
+                        const as_error *err)
+{
+    fprintf(f, "addsite %s: ", cmd);
+    if (line > 0)
+        fprintf(f, "line %ld, ", line);
+    if (err->offset >= 0)
+        fprintf(f, "column %ld: ", err->offset + 1);
+    fprintf(f, "%s: %s\n", as_status_name(err->code), err->msg);
+    if (!text || err->offset < 0)
+        return;
+    /* show at most 70 bytes around the offset, printable ASCII only */
+    size_t off = (size_t)err->offset;
+    size_t from = off > 35 ? off - 35 : 0;
+    size_t to = from + 70 < len ? from + 70 : len;
+    if (off >= len && len > 0)
+        to = len;
+    fputs("  ", f);
+    if (from > 0)
+        fputs("...", f);
+    for (size_t i = from; i < to; i++) {
+        unsigned char c = (unsigned char)text[i];
+        fputc(c >= 32 && c < 127 ? c : '?', f);
+    }
+    fputc('\n', f);
+    fputs("  ", f);
+    if (from > 0)
+        fputs("   ", f);
+    for (size_t i = from; i < off && i < to + 1; i++)
+        fputc(' ', f);
+    fputs("^\n", f);
+}
+
+int main(int argc, char **argv)
+{
+    if (argc < 2) {
+        usage(stderr);
+        return 2;
+    }
+    const char *cmd = argv[1];
+    if (!strcmp(cmd, "--version") || !strcmp(cmd, "version")) {
+        printf("addsite %s\n", AS_VERSION);
+        return 0;
+    }
+    if (!strcmp(cmd, "--help") || !strcmp(cmd, "-h")) {
+        usage(stdout);
+        return 0;
+    }
+    if (!strcmp(cmd, "help")) {
+        if (argc < 3) {
+            usage(stdout);
+            return 0;
+        }
+        for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
+            if (!strcmp(argv[2], commands[i].name)) {
+                char *av[] = {argv[2], "--help", NULL};
+                return commands[i].run(2, av);
+            }
+        fprintf(stderr, "addsite: no command '%s'\n", argv[2]);
+        return 2;
+    }
+    for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
+        if (!strcmp(cmd, commands[i].name))
+            return commands[i].run(argc - 1, argv + 1);
+    fprintf(stderr, "addsite: no command '%s'\n\n", cmd);
+    usage(stderr);
+    return 2;
+}

@@ -1,0 +1,35 @@
+# rules_embed_gen.cmake — script mode (cmake -P): writes AS_RULES_OUT, a C file holding every
+# reactions/*.json under AS_RULES_SRC as a byte array, sorted by file name, plus the table
+# as_rules_embedded[] that lib/rules.c reads (declared in lib/rules_int.h).
+if(NOT AS_RULES_SRC OR NOT AS_RULES_OUT)
+  message(FATAL_ERROR "rules_embed_gen.cmake needs -DAS_RULES_SRC=dir -DAS_RULES_OUT=file")
+endif()
+file(GLOB files ${AS_RULES_SRC}/*.json)
+list(SORT files)
+set(out "// generated from reactions/*.json by cmake/rules_embed.cmake, do not edit\n")
+string(APPEND out "#include \"rules_int.h\"\n\n")
+set(table "")
+set(i 0)
+foreach(f ${files})
+  get_filename_component(name ${f} NAME)
+  file(READ ${f} hex HEX)
+  string(LENGTH "${hex}" nhex)
+  math(EXPR nbytes "${nhex} / 2")
+  # two hex digits -> "0x..," and a line break every 16 bytes
+  string(REGEX REPLACE "([0-9a-f][0-9a-f])" "0x\\1," bytes "${hex}")
+  # CMake regular expressions have no {n}: spell out 16 bytes per line
+  string(REPEAT "0x..," 16 line16)
+  string(REGEX REPLACE "(${line16})" "\\1\n    " bytes "${bytes}")
+  string(APPEND out "static const unsigned char rule_${i}[] = {\n    ${bytes}0x00};\n\n")
+  string(APPEND table "    {\"${name}\", (const char *)rule_${i}, ${nbytes}},\n")
+  math(EXPR i "${i} + 1")
+endforeach()
+if(i EQUAL 0)
+  string(APPEND out "const as_rules_blob as_rules_embedded[] = {{\"\", \"\", 0}};\n")
+else()
+  string(APPEND out "const as_rules_blob as_rules_embedded[] = {\n${table}};\n")
+endif()
+string(APPEND out "const int as_rules_nembedded = ${i};\n")
+# Write through a temporary name so an interrupted run leaves no half file.
+file(WRITE ${AS_RULES_OUT}.tmp "${out}")
+file(RENAME ${AS_RULES_OUT}.tmp ${AS_RULES_OUT})

@@ -1,0 +1,1398 @@
+/* canon.c — canonical atom ranking and the SMILES writer.
+ * Owns: CANON/CANGEN-style ranking (Weininger, Weininger & Weininger, J. Chem. Inf. Comput.
+ * Sci. 1989, 29, 97: invariant classes refined by neighbour ranks, ties broken one atom at a
+ * time), which stereo marks are real, and writing SMILES with @/@@ and / \.
+ * Must not: depend on the rule table.
+ *
+ * Symmetric molecules with stereo: after refinement, atoms in one class may still differ by
+ * configuration (meso forms). Breaking the tie one way or the other then yields mirror-image
+ * strings, so when the molecule has stereo marks every tie-break choice is explored and the
+ * lexicographically smallest string is kept (bounded by MAX_LEAVES; past that the first
+ * choices are taken, which stays deterministic but may depend on input order). */
+#include "addsite/canon.h"
+#include "addsite/perceive.h"
+#include "addsite/smiles.h"
+#include "status_int.h"
+
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define MAX_LEAVES 256
+
+/* ---------------------------------------------------------------- growable string */
+
+typedef struct sbuf {
+    char *s;
+    size_t n, cap;
+    int oom;
+} sbuf;
+
+static void sb_putn(sbuf *b, const char *t, size_t n)
+{
+    if (b->oom)
+        return;
+    if (b->n + n + 1 > b->cap) {
+        size_t c = b->cap ? b->cap * 2 : 128;
+        while (c < b->n + n + 1)
+            c *= 2;
+        char *p = realloc(b->s, c);
+        if (!p) {
+            b->oom = 1;
+            return;
+        }
+        b->s = p;
+        b->cap = c;
+    }
+    memcpy(b->s + b->n, t, n);
+    b->n += n;
+    b->s[b->n] = '\0';
+}
+
+static void sb_puts(sbuf *b, const char *t)
+{
+    sb_putn(b, t, strlen(t));
+}
+
+static void sb_putc(sbuf *b, char c)
+{
+    sb_putn(b, &c, 1);
+}
+
+static void sb_int(sbuf *b, long v)
+{
+    char t[24];
+    int n = snprintf(t, sizeof t, "%ld", v);
+    sb_putn(b, t, (size_t)n);
+}
+
+/* ---------------------------------------------------------------- ranking */
+
+typedef struct ringbond {
+    int opener, closer, bond;
+    int digit;
+} ringbond;
+
+typedef struct canon_ctx {
+    const as_mol *m;
+    const as_canon_opts *o;
+    int n;
+    int *cls;          /* constitutional classes (refined, no tie breaking) */
+    char *real_tetra;  /* per tetra record */
+    char *real_db;     /* per dbs record */
+    int has_stereo;
+    char *near_stereo; /* per atom: a real stereo element's atom or its neighbour */
+    /* refinement scratch */
+    int *order;
+    int *tmp;
+    int *scratch;      /* 11 n ints for refine() */
+    int *wblock;       /* writer scratch, reused by every complete ordering */
+    ringbond *wrb;     /* ring bonds, one per bond at most */
+    signed char *wdir; /* bond marks */
+    /* best string so far */
+    char *best;
+    size_t best_len;
+    int leaves;
+    as_status st;
+} canon_ctx;
+
+static int bond_code(const as_bond *b)
+{
+    return b->aromatic ? 4 : b->order;
+}
+
+/* Sorts v[0..n) ascending by key[v[i]] (insertion sort for short runs, else merge sort
+ * through tmp). */
+static void sort_by_key(int *v, int n, const int *key, int *tmp)
+{
+    if (n < 24) {
+        for (int i = 1; i < n; i++) {
+            int x = v[i], j = i - 1;
+            while (j >= 0 && key[v[j]] > key[x]) {
+                v[j + 1] = v[j];
+                j--;
+            }
+            v[j + 1] = x;
+        }
+        return;
+    }
+    for (int w = 1; w < n; w *= 2) {
+        for (int lo = 0; lo < n; lo += 2 * w) {
+            int mid = lo + w < n ? lo + w : n, hi = lo + 2 * w < n ? lo + 2 * w : n;
+            int i = lo, j = mid, k = lo;
+            while (i < mid && j < hi)
+                tmp[k++] = key[v[j]] < key[v[i]] ? v[j++] : v[i++];
+            while (i < mid)
+                tmp[k++] = v[i++];
+            while (j < hi)
+                tmp[k++] = v[j++];
+        }
+        memcpy(v, tmp, (size_t)n * sizeof(int));
+    }
+}
+
+/* Refines the ordered partition given by rank[] (rank = number of atoms in lower cells, i.e.
+ * the start of the atom's cell) to the coarsest equitable partition: atoms of one cell then
+ * have the same number of neighbours, per bond code, in every cell. Splitter cells are taken
+ * from a FIFO queue and only the atoms they touch move (Hopcroft's trick: a split cell that
+ * is not queued enqueues all its fragments but the largest), so a 100,000-atom chain takes
+ * O(m log n), not one full pass per bond of the chain. Fragments are ordered by their
+ * neighbour counts, so the result depends only on the input partition, never on atom
+ * numbering. */
+static void refine(canon_ctx *c, int *rank)
+{
+    const as_mol *m = c->m;
+    int n = c->n;
+    if (n == 0)
+        return;
+    int *elems = c->scratch, *pos = elems + n, *cell_of = pos + n, *cell_len = cell_of + n;
+    int *cnt = cell_len + n, *tcount = cnt + n, *touched = tcount + n, *tcells = touched + n;
+    int *queue = tcells + n, *inq = queue + n, *tmp = inq + n;
+    /* counting sort of atoms by rank: cells are contiguous, starting at their rank */
+    memset(cell_len, 0, (size_t)n * sizeof(int));
+    for (int v = 0; v < n; v++)
+        cell_len[rank[v]]++;
+    memcpy(tcount, cell_len, (size_t)n * sizeof(int)); /* fill cursor, reset below */
+    for (int v = 0; v < n; v++) {
+        int s = rank[v];
+        int k = s + cell_len[s] - tcount[s]--;
+        elems[k] = v;
+        pos[v] = k;
+        cell_of[v] = s;
+    }
+    memset(cnt, 0, (size_t)n * sizeof(int));
+    memset(tcount, 0, (size_t)n * sizeof(int));
+    memset(inq, 0, (size_t)n * sizeof(int));
+    int qhead = 0, qlen = 0;
+    for (int s = 0; s < n; s += cell_len[s]) {
+        queue[(qhead + qlen++) % n] = s;
+        inq[s] = 1;
+    }
+    while (qlen) {
+        int w = queue[qhead];
+        qhead = (qhead + 1) % n;
+        qlen--;
+        inq[w] = 0;
+        int nt = 0, ntc = 0;
+        int wlen = cell_len[w];
+        for (int k = w; k < w + wlen; k++) {
+            const as_atom *a = &m->atoms[elems[k]];
+            for (int j = 0; j < a->degree; j++) {
+                int u = a->nbr[j];
+                int code = bond_code(&m->bonds[a->nbond[j]]);
+                if (cnt[u] == 0) {
+                    /* first touch: move u to the tail of its cell */
+                    int x = cell_of[u];
+                    if (tcount[x] == 0)
+                        tcells[ntc++] = x;
+                    int target = x + cell_len[x] - 1 - tcount[x]++;
+                    int other = elems[target];
+                    elems[pos[u]] = other;
+                    pos[other] = pos[u];
+                    elems[target] = u;
+                    pos[u] = target;
+                    touched[nt++] = u;
+                }
+                cnt[u] += 1 << (4 * (code - 1));
+            }
+        }
+        /* split touched cells, lowest start first */
+        for (int i = 1; i < ntc; i++) {
+            int x = tcells[i], j = i - 1;
+            while (j >= 0 && tcells[j] > x) {
+                tcells[j + 1] = tcells[j];
+                j--;
+            }
+            tcells[j + 1] = x;
+        }
+        for (int i = 0; i < ntc; i++) {
+            int x = tcells[i], len = cell_len[x], t = tcount[x];
+            int tail = x + len - t;
+            sort_by_key(elems + tail, t, cnt, tmp);
+            for (int k = tail; k < x + len; k++)
+                pos[elems[k]] = k;
+            /* fragment boundaries */
+            int nfrag = 0, largest = -1, largest_len = -1;
+            int starts[2];
+            (void)starts;
+            int fs = x;
+            int first_touched_frag = t == len ? x : tail;
+            if (t < len)
+                nfrag = 1;
+            int was_queued = inq[x];
+            /* walk fragments */
+            int k = first_touched_frag;
+            while (k < x + len) {
+                int e = k + 1;
+                while (e < x + len && cnt[elems[e]] == cnt[elems[k]])
+                    e++;
+                nfrag++;
+                k = e;
+            }
+            if (nfrag == 1)
+                continue;
+            /* set cell data and find the largest fragment */
+            fs = x;
+            while (fs < x + len) {
+                int e;
+                if (fs < tail) {
+                    e = tail;
+                } else {
+                    e = fs + 1;
+                    while (e < x + len && cnt[elems[e]] == cnt[elems[fs]])
+                        e++;
+                }
+                cell_len[fs] = e - fs;
+                for (int q = fs; q < e; q++)
+                    cell_of[elems[q]] = fs;
+                if (e - fs > largest_len) {
+                    largest_len = e - fs;
+                    largest = fs;
+                }
+                fs = e;
+            }
+            for (fs = x; fs < x + len; fs += cell_len[fs]) {
+                if (inq[fs])
+                    continue;
+                if (!was_queued && fs == largest)
+                    continue;
+                queue[(qhead + qlen++) % n] = fs;
+                inq[fs] = 1;
+            }
+        }
+        for (int i = 0; i < nt; i++) {
+            int u = touched[i];
+            cnt[u] = 0;
+        }
+        for (int i = 0; i < ntc; i++)
+            tcount[tcells[i]] = 0;
+    }
+    memcpy(rank, cell_of, (size_t)n * sizeof(int));
+}
+
+/* rank[i] = number of atoms whose 128-bit key (inv[2i], inv[2i+1]) is smaller. */
+static void rank_by_keys(canon_ctx *c, const uint64_t *inv, int *rank)
+{
+    int n = c->n;
+    int *a = c->order, *t = c->tmp;
+    for (int i = 0; i < n; i++)
+        a[i] = i;
+    for (int w = 1; w < n; w *= 2) {
+        for (int lo = 0; lo < n; lo += 2 * w) {
+            int mid = lo + w < n ? lo + w : n, hi = lo + 2 * w < n ? lo + 2 * w : n;
+            int i = lo, j = mid, k = lo;
+            while (i < mid && j < hi) {
+                int x = a[i], y = a[j];
+                int ylt = inv[2 * y] < inv[2 * x] ||
+                          (inv[2 * y] == inv[2 * x] && inv[2 * y + 1] < inv[2 * x + 1]);
+                t[k++] = ylt ? a[j++] : a[i++];
+            }
+            while (i < mid)
+                t[k++] = a[i++];
+            while (j < hi)
+                t[k++] = a[j++];
+        }
+        memcpy(a, t, (size_t)n * sizeof(int));
+    }
+    for (int i = 0; i < n; i++) {
+        int x = a[i];
+        if (i > 0 && inv[2 * a[i - 1]] == inv[2 * x] && inv[2 * a[i - 1] + 1] == inv[2 * x + 1])
+            rank[x] = rank[a[i - 1]];
+        else
+            rank[x] = i;
+    }
+}
+
+/* Initial invariants → ranks: degree, element, isotope, charge, H count, aromaticity, ring
+ * size (smallest ring through the atom), then the atom class when maps are written. */
+static void initial_ranks(canon_ctx *c, int *rank)
+{
+    const as_mol *m = c->m;
+    int n = c->n;
+    uint64_t *inv = (uint64_t *)(void *)c->scratch; /* 11 n ints hold 2 n keys */
+    for (int i = 0; i < n; i++) {
+        const as_atom *a = &m->atoms[i];
+        uint64_t hi = 0;
+        hi |= (uint64_t)(a->degree & 0xff) << 56;
+        hi |= (uint64_t)(a->elem & 0xff) << 48;
+        hi |= (uint64_t)((a->isotope + 1) & 0xffff) << 32;
+        hi |= (uint64_t)((a->charge + 64) & 0xff) << 24;
+        hi |= (uint64_t)(a->total_h & 0xff) << 16;
+        hi |= (uint64_t)(a->aromatic & 1) << 8;
+        hi |= (uint64_t)(a->ring_size & 0xff); /* smallest ring: a graph invariant */
+        inv[2 * i] = hi;
+        inv[2 * i + 1] = c->o->atom_maps ? (uint64_t)(unsigned)a->mapnum : 0;
+    }
+    rank_by_keys(c, inv, rank);
+}
+
+/* ---------------------------------------------------------------- real stereo elements */
+
+/* 1 when atoms a and b lie on one common SSSR ring. */
+static int share_ring(const as_mol *m, int a, int b)
+{
+    for (int r = 0; r < m->nrings; r++) {
+        int fa = 0, fb = 0;
+        for (int k = m->ring_start[r]; k < m->ring_start[r + 1]; k++) {
+            fa |= m->ring_atoms[k] == a;
+            fb |= m->ring_atoms[k] == b;
+        }
+        if (fa && fb)
+            return 1;
+    }
+    return 0;
+}
+
+static void find_real_stereo(canon_ctx *c)
+{
+    const as_mol *m = c->m;
+    /* pass 1: centres whose four neighbours are all different */
+    char *cand_ring = calloc((size_t)(m->ntetra ? m->ntetra : 1), 1);
+    if (!cand_ring) {
+        c->st = AS_ERR_NOMEM;
+        return;
+    }
+    for (int i = 0; i < m->ntetra; i++) {
+        const as_tetra *t = &m->tetra[i];
+        int cl[4];
+        for (int k = 0; k < 4; k++)
+            cl[k] = t->nbr[k] == AS_IMPLICIT_H ? -1 : c->cls[t->nbr[k]];
+        int dup = 0, dup_ring = 1;
+        for (int x = 0; x < 4; x++)
+            for (int y = x + 1; y < 4; y++)
+                if (cl[x] == cl[y]) {
+                    dup++;
+                    /* ring stereo (cis/trans-1,4-disubstituted rings): the two equal
+                     * neighbours are ring atoms on a common ring with the centre */
+                    if (t->nbr[x] < 0 || t->nbr[y] < 0 || !share_ring(m, t->center, t->nbr[x]) ||
+                        !share_ring(m, t->center, t->nbr[y]))
+                        dup_ring = 0;
+                }
+        if (!dup)
+            c->real_tetra[i] = 1;
+        else if (dup == 1 && dup_ring)
+            cand_ring[i] = 1;
+    }
+    /* pass 2: ring-stereo candidates need a second stereo centre on a shared ring system */
+    for (int i = 0; i < m->ntetra; i++) {
+        if (!cand_ring[i])
+            continue;
+        for (int j = 0; j < m->ntetra; j++) {
+            if (j == i || !(cand_ring[j] || c->real_tetra[j]))
+                continue;
+            /* same ring system: a path through ring atoms; approximate by a shared ring or
+             * rings sharing atoms */
+            int ci = m->tetra[i].center, cj = m->tetra[j].center;
+            int found = 0;
+            for (int r = 0; r < m->nrings && !found; r++) {
+                int fi = 0, fj = 0;
+                for (int k = m->ring_start[r]; k < m->ring_start[r + 1]; k++) {
+                    fi |= m->ring_atoms[k] == ci;
+                    fj |= m->ring_atoms[k] == cj;
+                }
+                found = fi && fj;
+            }
+            if (found) {
+                c->real_tetra[i] = 1;
+                break;
+            }
+        }
+    }
+    free(cand_ring);
+    for (int i = 0; i < m->ndbs; i++) {
+        const as_bond *b = &m->bonds[m->dbs[i].bond];
+        int ok = 1;
+        for (int e = 0; e < 2 && ok; e++) {
+            int u = e ? b->b : b->a, v = e ? b->a : b->b;
+            const as_atom *a = &m->atoms[u];
+            int others[AS_MAX_DEGREE], no = 0;
+            for (int k = 0; k < a->degree; k++)
+                if (a->nbr[k] != v)
+                    others[no++] = a->nbr[k];
+            if (no == 0 || no + a->total_h > 2)
+                ok = 0;
+            else if (no == 2 && c->cls[others[0]] == c->cls[others[1]])
+                ok = 0;
+        }
+        c->real_db[i] = (char)ok;
+    }
+    for (int i = 0; i < m->ntetra; i++) {
+        if (!c->real_tetra[i])
+            continue;
+        c->has_stereo = 1;
+        int a = m->tetra[i].center;
+        c->near_stereo[a] = 1;
+        for (int k = 0; k < m->atoms[a].degree; k++)
+            c->near_stereo[m->atoms[a].nbr[k]] = 1;
+    }
+    for (int i = 0; i < m->ndbs; i++) {
+        if (!c->real_db[i])
+            continue;
+        c->has_stereo = 1;
+        const as_bond *b = &m->bonds[m->dbs[i].bond];
+        for (int e = 0; e < 2; e++) {
+            int a = e ? b->b : b->a;
+            c->near_stereo[a] = 1;
+            for (int k = 0; k < m->atoms[a].degree; k++)
+                c->near_stereo[m->atoms[a].nbr[k]] = 1;
+        }
+    }
+}
+
+/* Parity descriptor (1 or 2) of a real centre whose four neighbours all differ in class:
+ * the record's parity carried over to the order sorted by class (H lowest); 0 otherwise. */
+static int centre_descriptor(const canon_ctx *c, const as_tetra *t)
+{
+    int key[4], ord[4];
+    for (int k = 0; k < 4; k++) {
+        key[k] = t->nbr[k] == AS_IMPLICIT_H ? -1 : c->cls[t->nbr[k]];
+        ord[k] = k;
+    }
+    for (int x = 0; x < 4; x++)
+        for (int y = x + 1; y < 4; y++)
+            if (key[x] == key[y])
+                return 0;
+    /* parity of the permutation that sorts the keys */
+    int odd = 0;
+    for (int x = 0; x < 4; x++)
+        for (int y = x + 1; y < 4; y++)
+            if (key[ord[x]] > key[ord[y]])
+                odd ^= 1;
+    int par = t->parity == AS_CCW ? 1 : 2;
+    return odd ? 3 - par : par;
+}
+
+/* Splits classes by configuration: two constitutionally equal centres of opposite
+ * configuration (the two ends of ribitol) become different, which in turn makes a
+ * pseudo-asymmetric centre between them real. Repeats while that changes anything. */
+static void stereo_refine(canon_ctx *c)
+{
+    const as_mol *m = c->m;
+    int n = c->n;
+    int *desc = calloc((size_t)(n ? n : 1), sizeof(int));
+    int *rank = malloc((size_t)(n ? n : 1) * sizeof(int));
+    if (!desc || !rank) {
+        free(desc);
+        free(rank);
+        c->st = AS_ERR_NOMEM;
+        return;
+    }
+    for (int iter = 0; iter < 4; iter++) {
+        int any = 0;
+        memset(desc, 0, (size_t)n * sizeof(int));
+        for (int i = 0; i < m->ntetra; i++) {
+            if (!c->real_tetra[i])
+                continue;
+            desc[m->tetra[i].center] = centre_descriptor(c, &m->tetra[i]);
+            any |= desc[m->tetra[i].center] != 0;
+        }
+        if (!any)
+            break;
+        /* rank by (class, descriptor), then refine */
+        uint64_t *keys = malloc((size_t)n * 2 * sizeof(uint64_t));
+        if (!keys) {
+            c->st = AS_ERR_NOMEM;
+            break;
+        }
+        for (int i = 0; i < n; i++) {
+            keys[2 * i] = (uint64_t)(unsigned)c->cls[i];
+            keys[2 * i + 1] = (uint64_t)(unsigned)desc[i];
+        }
+        rank_by_keys(c, keys, rank);
+        free(keys);
+        int before = 0, after = 0;
+        refine(c, rank);
+        /* count classes to see whether anything split */
+        char *seen = calloc((size_t)(n ? n : 1), 1);
+        if (!seen) {
+            c->st = AS_ERR_NOMEM;
+            break;
+        }
+        for (int i = 0; i < n; i++)
+            if (!seen[c->cls[i]]) {
+                seen[c->cls[i]] = 1;
+                before++;
+            }
+        memset(seen, 0, (size_t)n);
+        for (int i = 0; i < n; i++)
+            if (!seen[rank[i]]) {
+                seen[rank[i]] = 1;
+                after++;
+            }
+        free(seen);
+        if (after == before)
+            break;
+        memcpy(c->cls, rank, (size_t)n * sizeof(int));
+        memset(c->real_tetra, 0, (size_t)(m->ntetra ? m->ntetra : 1));
+        memset(c->real_db, 0, (size_t)(m->ndbs ? m->ndbs : 1));
+        memset(c->near_stereo, 0, (size_t)n);
+        c->has_stereo = 0;
+        find_real_stereo(c);
+        if (c->st != AS_OK)
+            break;
+    }
+    free(desc);
+    free(rank);
+}
+
+/* ---------------------------------------------------------------- writer */
+
+typedef struct writer {
+    canon_ctx *c;
+    const int *rank;
+    int *visited;    /* visit index, -1 unvisited */
+    int *parent;
+    int *seq;        /* atoms in visit order */
+    int nseq;
+    ringbond *rb;
+    int nrb;
+    int *child_start, *children; /* tree children per atom, in visit order */
+    signed char *dir; /* per bond: 0 none, +1 '/', -1 '\\' in written direction */
+    int *written_first; /* per bond: the atom written first */
+    int *stack, *it, *nbuf, *nchild, *byrank, *ci; /* traversal scratch */
+} writer;
+
+/* Neighbours of a sorted by rank. */
+static void sorted_nbrs(const writer *w, int a, int *out, int *n)
+{
+    const as_atom *at = &w->c->m->atoms[a];
+    *n = at->degree;
+    for (int i = 0; i < at->degree; i++)
+        out[i] = at->nbr[i];
+    for (int i = 1; i < *n; i++) {
+        int x = out[i], j = i - 1;
+        while (j >= 0 && w->rank[out[j]] > w->rank[x]) {
+            out[j + 1] = out[j];
+            j--;
+        }
+        out[j + 1] = x;
+    }
+}
+
+/* Pass 1: DFS from each component's lowest-ranked atom; tree edges and ring bonds. */
+static int build_tree(writer *w)
+{
+    const as_mol *m = w->c->m;
+    int n = w->c->n;
+    int *stack = w->stack, *it = w->it, *nb = w->nbuf, *nchild = w->nchild, *byrank = w->byrank;
+    memset(nchild, 0, (size_t)n * sizeof(int));
+    for (int i = 0; i < n; i++)
+        byrank[w->rank[i]] = i;
+    for (int i = 0; i < n; i++) {
+        w->visited[i] = -1;
+        w->parent[i] = -1;
+    }
+    int nvis = 0;
+    for (int r = 0; r < n; r++) {
+        int s = byrank[r];
+        if (w->visited[s] >= 0)
+            continue;
+        int top = 0;
+        stack[top++] = s;
+        w->visited[s] = nvis++;
+        w->seq[w->nseq++] = s;
+        it[s] = 0;
+        int d;
+        sorted_nbrs(w, s, nb + (size_t)s * AS_MAX_DEGREE, &d);
+        while (top) {
+            int u = stack[top - 1];
+            const int *un = nb + (size_t)u * AS_MAX_DEGREE;
+            if (it[u] >= m->atoms[u].degree) {
+                top--;
+                continue;
+            }
+            int v = un[it[u]++];
+            if (v == w->parent[u])
+                continue;
+            if (w->visited[v] < 0) {
+                w->visited[v] = nvis++;
+                w->seq[w->nseq++] = v;
+                w->parent[v] = u;
+                nchild[u]++;
+                it[v] = 0;
+                sorted_nbrs(w, v, nb + (size_t)v * AS_MAX_DEGREE, &d);
+                stack[top++] = v;
+            } else if (w->visited[v] < w->visited[u]) {
+                /* back edge to an ancestor: a ring bond, opened at v, closed at u */
+                int b = as_mol_bond_between(m, u, v);
+                w->rb[w->nrb].opener = v;
+                w->rb[w->nrb].closer = u;
+                w->rb[w->nrb].bond = b;
+                w->rb[w->nrb].digit = -1;
+                w->nrb++;
+            }
+        }
+    }
+    /* children lists in visit order */
+    w->child_start[0] = 0;
+    for (int i = 0; i < n; i++)
+        w->child_start[i + 1] = w->child_start[i] + nchild[i];
+    memset(nchild, 0, (size_t)n * sizeof(int));
+    for (int k = 0; k < w->nseq; k++) {
+        int v = w->seq[k], p = w->parent[v];
+        if (p >= 0)
+            w->children[w->child_start[p] + nchild[p]++] = v;
+    }
+    return 0;
+}
+
+/* Ring bonds at atom a in the order their digits are written: closures first (by the
+ * opener's visit order), then openings (by the closer's visit order). */
+static int ring_bonds_at(const writer *w, int a, int *out)
+{
+    int n = 0;
+    for (int pass = 0; pass < 2; pass++) {
+        int start = n;
+        for (int i = 0; i < w->nrb; i++) {
+            const ringbond *r = &w->rb[i];
+            if ((pass == 0 && r->closer == a) || (pass == 1 && r->opener == a))
+                out[n++] = i;
+        }
+        for (int i = start + 1; i < n; i++) {
+            int x = out[i], j = i - 1;
+            int kx = pass == 0 ? w->visited[w->rb[x].opener] : w->visited[w->rb[x].closer];
+            while (j >= start) {
+                int kj = pass == 0 ? w->visited[w->rb[out[j]].opener]
+                                   : w->visited[w->rb[out[j]].closer];
+                if (kj <= kx)
+                    break;
+                out[j + 1] = out[j];
+                j--;
+            }
+            out[j + 1] = x;
+        }
+    }
+    return n;
+}
+
+/* Neighbour order of atom a as written: parent, H/lone pair, ring partners, children. */
+static int written_nbrs(const writer *w, int a, int *out, int with_h)
+{
+    int n = 0;
+    if (w->parent[a] >= 0)
+        out[n++] = w->parent[a];
+    int rbs[AS_MAX_DEGREE];
+    int nr = ring_bonds_at(w, a, rbs);
+    for (int i = 0; i < nr; i++) {
+        const ringbond *r = &w->rb[rbs[i]];
+        out[n++] = r->opener == a ? r->closer : r->opener;
+    }
+    for (int k = w->child_start[a]; k < w->child_start[a + 1]; k++)
+        out[n++] = w->children[k];
+    if (with_h) {
+        /* an H goes where it is written (after the parent, else first); a lone pair of a
+         * three-coordinate centre always takes the second place (see smiles_read.c) */
+        int pos = (w->parent[a] >= 0 || w->c->m->atoms[a].total_h == 0) ? 1 : 0;
+        if (pos > n)
+            pos = n;
+        memmove(out + pos + 1, out + pos, (size_t)(n - pos) * sizeof(int));
+        out[pos] = AS_IMPLICIT_H;
+        n++;
+    }
+    return n;
+}
+
+/* 1 when the permutation taking p to q (same 4 items) is odd. */
+static int odd_perm(const int *p, const int *q)
+{
+    int idx[4];
+    for (int i = 0; i < 4; i++) {
+        idx[i] = -1;
+        for (int j = 0; j < 4; j++)
+            if (q[j] == p[i])
+                idx[i] = j;
+        if (idx[i] < 0)
+            return -1;
+    }
+    int par = 0;
+    for (int i = 0; i < 4; i++)
+        for (int j = i + 1; j < 4; j++)
+            if (idx[i] > idx[j])
+                par ^= 1;
+    return par;
+}
+
+/* Chirality to write at atom a: 0, AS_CCW or AS_CW. */
+static int written_chirality(const writer *w, int a)
+{
+    const canon_ctx *c = w->c;
+    const as_mol *m = c->m;
+    if (!c->o->stereo)
+        return 0;
+    int ti = as_mol_find_tetra(m, a);
+    if (ti < 0 || !c->real_tetra[ti])
+        return 0;
+    const as_tetra *t = &m->tetra[ti];
+    int has_h = 0;
+    for (int k = 0; k < 4; k++)
+        has_h |= t->nbr[k] == AS_IMPLICIT_H;
+    int out[AS_MAX_DEGREE + 1];
+    int n = written_nbrs(w, a, out, has_h);
+    if (n != 4)
+        return 0;
+    int odd = odd_perm(t->nbr, out);
+    if (odd < 0)
+        return 0;
+    return odd ? (t->parity == AS_CCW ? AS_CW : AS_CCW) : t->parity;
+}
+
+/* ---------------------------------------------------------------- double-bond marks */
+
+/* 1 when atom a has a non-aromatic single bond other than bond skip. */
+static int has_plain_single(const as_mol *m, int a, int skip)
+{
+    const as_atom *at = &m->atoms[a];
+    for (int k = 0; k < at->degree; k++) {
+        const as_bond *b = &m->bonds[at->nbond[k]];
+        if (at->nbond[k] != skip && b->order == AS_BOND_SINGLE && !b->aromatic)
+            return 1;
+    }
+    return 0;
+}
+
+/* Assigns '/' '\' to single bonds next to real stereo double bonds, by propagation. Each
+ * marked bond's value is the side of its second-written atom relative to its first. */
+static void assign_dirs(writer *w)
+{
+    const canon_ctx *c = w->c;
+    const as_mol *m = c->m;
+    if (!c->o->stereo)
+        return;
+    for (int b = 0; b < m->nbonds; b++) {
+        const as_bond *bd = &m->bonds[b];
+        w->written_first[b] = w->visited[bd->a] < w->visited[bd->b] ? bd->a : bd->b;
+    }
+    /* process stereo double bonds in order of their first atom's visit index */
+    int nd = m->ndbs;
+    int *ord = malloc((size_t)(nd ? nd : 1) * sizeof(int));
+    if (!ord)
+        return;
+    int no = 0;
+    for (int i = 0; i < nd; i++)
+        if (c->real_db[i])
+            ord[no++] = i;
+    for (int i = 1; i < no; i++) {
+        int x = ord[i], j = i - 1;
+        int kx = w->visited[w->written_first[m->dbs[x].bond]];
+        while (j >= 0 && w->visited[w->written_first[m->dbs[ord[j]].bond]] > kx) {
+            ord[j + 1] = ord[j];
+            j--;
+        }
+        ord[j + 1] = x;
+    }
+    /* Repeat until no change so that a later double bond can anchor an earlier one. */
+    for (int round = 0; round < 2; round++) {
+        for (int oi = 0; oi < no; oi++) {
+            const as_dbstereo *d = &m->dbs[ord[oi]];
+            const as_bond *bd = &m->bonds[d->bond];
+            int ends[2] = {bd->a, bd->b};
+            int refs[2] = {d->ref_a, d->ref_b};
+            /* side of each end's neighbours, +1/-1 relative to that end; 0 unknown */
+            int anchor_side[2] = {0, 0};
+            int anchor_nbr[2] = {-1, -1};
+            for (int e = 0; e < 2; e++) {
+                const as_atom *u = &m->atoms[ends[e]];
+                for (int k = 0; k < u->degree && !anchor_side[e]; k++) {
+                    int y = u->nbr[k], bk = u->nbond[k];
+                    if (bk == d->bond || !w->dir[bk])
+                        continue;
+                    int s = w->dir[bk];
+                    /* value is side(second rel first) */
+                    int side = w->written_first[bk] == ends[e] ? s : -s;
+                    anchor_side[e] = side;
+                    anchor_nbr[e] = y;
+                }
+            }
+            /* express both anchors as the side of the record's reference atoms */
+            int ref_side[2] = {0, 0};
+            for (int e = 0; e < 2; e++) {
+                if (!anchor_side[e])
+                    continue;
+                ref_side[e] = anchor_nbr[e] == refs[e] ? anchor_side[e] : -anchor_side[e];
+            }
+            if (!ref_side[0] && !ref_side[1]) {
+                if (round == 1)
+                    continue;
+                /* first mark written at the earlier end is '/' */
+                int e = w->visited[ends[0]] < w->visited[ends[1]] ? 0 : 1;
+                const as_atom *u = &m->atoms[ends[e]];
+                int firstn = -1, fb = -1, best = 1 << 30;
+                for (int k = 0; k < u->degree; k++) {
+                    int bk = u->nbond[k];
+                    if (bk == d->bond)
+                        continue;
+                    if (w->visited[u->nbr[k]] < best) {
+                        best = w->visited[u->nbr[k]];
+                        firstn = u->nbr[k];
+                        fb = bk;
+                    }
+                }
+                if (fb < 0)
+                    continue;
+                /* dir +1 on fb: side(second rel first) = +1 */
+                int side_first = w->written_first[fb] == ends[e] ? 1 : -1;
+                ref_side[e] = firstn == refs[e] ? side_first : -side_first;
+            }
+            if (!ref_side[0])
+                ref_side[0] = d->cis ? ref_side[1] : -ref_side[1];
+            if (!ref_side[1])
+                ref_side[1] = d->cis ? ref_side[0] : -ref_side[0];
+            /* write all single bonds at both ends */
+            for (int e = 0; e < 2; e++) {
+                const as_atom *u = &m->atoms[ends[e]];
+                for (int k = 0; k < u->degree; k++) {
+                    int bk = u->nbond[k];
+                    if (bk == d->bond || m->bonds[bk].order == AS_BOND_DOUBLE ||
+                        m->bonds[bk].order == AS_BOND_TRIPLE)
+                        continue;
+                    /* aromatic ring bonds carry a mark only when nothing else can */
+                    if (m->bonds[bk].aromatic && has_plain_single(m, ends[e], d->bond))
+                        continue;
+                    int side = u->nbr[k] == refs[e] ? ref_side[e] : -ref_side[e];
+                    int val = w->written_first[bk] == ends[e] ? side : -side;
+                    if (!w->dir[bk])
+                        w->dir[bk] = (signed char)val;
+                }
+            }
+        }
+    }
+    free(ord);
+}
+
+/* ---------------------------------------------------------------- atom text */
+
+static int organic_subset(int elem)
+{
+    return elem == 5 || elem == 6 || elem == 7 || elem == 8 || elem == 15 || elem == 16 ||
+           elem == 9 || elem == 17 || elem == 35 || elem == 53;
+}
+
+/* Hydrogens a reader would give this atom if written without brackets. */
+static int implied_h(const as_mol *m, int a, int aromatic_out)
+{
+    const as_atom *at = &m->atoms[a];
+    int sum = 0;
+    for (int k = 0; k < at->degree; k++) {
+        const as_bond *b = &m->bonds[at->nbond[k]];
+        sum += (aromatic_out && b->aromatic) ? 1 : b->order;
+    }
+    int v = as_default_valence(at->elem, sum);
+    if (v < 0)
+        return -1; /* above every normal valence: toolkits disagree, so write brackets */
+    int h = v - sum - (aromatic_out && at->aromatic ? 1 : 0);
+    return h > 0 ? h : 0;
+}
+
+static void write_atom(writer *w, sbuf *sb, int a)
+{
+    const canon_ctx *c = w->c;
+    const as_mol *m = c->m;
+    const as_atom *at = &m->atoms[a];
+    int chir = written_chirality(w, a);
+    int iso = c->o->isotopes ? at->isotope : -1;
+    int map = c->o->atom_maps ? at->mapnum : 0;
+    const char *sym = as_element_symbol(at->elem);
+    if (!sym)
+        sym = "*";
+    char low[4] = {0};
+    if (at->aromatic) {
+        size_t l = strlen(sym);
+        for (size_t i = 0; i < l && i < 3; i++)
+            low[i] = (char)(i == 0 ? sym[0] - 'A' + 'a' : sym[i]);
+        sym = low;
+    }
+    int bare = organic_subset(at->elem) && at->charge == 0 && iso < 0 && map == 0 && !chir &&
+               implied_h(m, a, 1) == at->total_h &&
+               (!at->aromatic || at->elem == 5 || at->elem == 6 || at->elem == 7 ||
+                at->elem == 8 || at->elem == 15 || at->elem == 16);
+    if (at->elem == 0 && at->charge == 0 && iso < 0 && map == 0 && at->total_h == 0) {
+        sb_putc(sb, '*');
+        return;
+    }
+    if (bare) {
+        sb_puts(sb, sym);
+        return;
+    }
+    sb_putc(sb, '[');
+    if (iso >= 0)
+        sb_int(sb, iso);
+    sb_puts(sb, sym);
+    if (chir)
+        sb_puts(sb, chir == AS_CCW ? "@" : "@@");
+    if (at->total_h > 0) {
+        sb_putc(sb, 'H');
+        if (at->total_h > 1)
+            sb_int(sb, at->total_h);
+    }
+    if (at->charge) {
+        sb_putc(sb, at->charge > 0 ? '+' : '-');
+        int mag = at->charge > 0 ? at->charge : -at->charge;
+        if (mag > 1)
+            sb_int(sb, mag);
+    }
+    if (map) {
+        sb_putc(sb, ':');
+        sb_int(sb, map);
+    }
+    sb_putc(sb, ']');
+}
+
+static void write_bond(const writer *w, sbuf *sb, int b, int from)
+{
+    const as_mol *m = w->c->m;
+    const as_bond *bd = &m->bonds[b];
+    (void)from;
+    if (bd->aromatic) {
+        if (w->dir[b])
+            sb_putc(sb, w->dir[b] > 0 ? '/' : '\\');
+        return;
+    }
+    switch (bd->order) {
+    case AS_BOND_DOUBLE: sb_putc(sb, '='); return;
+    case AS_BOND_TRIPLE: sb_putc(sb, '#'); return;
+    case AS_BOND_QUADRUPLE: sb_putc(sb, '$'); return;
+    default: break;
+    }
+    if (w->dir[b]) {
+        sb_putc(sb, w->dir[b] > 0 ? '/' : '\\');
+        return;
+    }
+    if (m->atoms[bd->a].aromatic && m->atoms[bd->b].aromatic)
+        sb_putc(sb, '-');
+}
+
+static void write_digit(sbuf *sb, int d)
+{
+    if (d < 10) {
+        sb_putc(sb, (char)('0' + d));
+    } else {
+        sb_putc(sb, '%');
+        sb_int(sb, d);
+    }
+}
+
+/* Pass 2: emit atoms in visit order with branches and ring digits. */
+static as_status emit(writer *w, sbuf *sb)
+{
+    const as_mol *m = w->c->m;
+    int n = w->c->n;
+    char used[100] = {0};
+    /* explicit stack of (atom, next child index); branch parentheses by position */
+    int *stack = w->stack, *ci = w->ci;
+    (void)n;
+    int first_comp = 1;
+    for (int k = 0; k < w->nseq; k++) {
+        int s = w->seq[k];
+        if (w->parent[s] >= 0)
+            continue;
+        if (!first_comp)
+            sb_putc(sb, '.');
+        first_comp = 0;
+        int top = 0;
+        stack[top] = s;
+        ci[top] = -1;
+        top++;
+        while (top) {
+            int u = stack[top - 1];
+            if (ci[top - 1] == -1) {
+                /* first time: write the atom and its ring digits */
+                write_atom(w, sb, u);
+                int rbs[AS_MAX_DEGREE];
+                int nr = ring_bonds_at(w, u, rbs);
+                for (int i = 0; i < nr; i++) {
+                    ringbond *r = &w->rb[rbs[i]];
+                    if (r->closer == u) {
+                        /* closing: bond symbol was written at the opening */
+                        write_digit(sb, r->digit);
+                        used[r->digit] = 0;
+                    } else {
+                        int d = 1;
+                        while (d < 100 && used[d])
+                            d++;
+                        if (d == 100) {
+                            d = 0;
+                            if (used[0])
+                                return AS_ERR_LIMIT;
+                        }
+                        used[d] = 1;
+                        r->digit = d;
+                        write_bond(w, sb, r->bond, u);
+                        write_digit(sb, d);
+                    }
+                }
+                ci[top - 1] = 0;
+            }
+            int nch = w->child_start[u + 1] - w->child_start[u];
+            int i = ci[top - 1];
+            if (i >= nch) {
+                top--;
+                if (top && ci[top - 1] < w->child_start[stack[top - 1] + 1] -
+                                             w->child_start[stack[top - 1]])
+                    sb_putc(sb, ')');
+                continue;
+            }
+            int v = w->children[w->child_start[u] + i];
+            ci[top - 1] = i + 1;
+            if (i + 1 < nch)
+                sb_putc(sb, '(');
+            write_bond(w, sb, as_mol_bond_between(m, u, v), u);
+            stack[top] = v;
+            ci[top] = -1;
+            top++;
+        }
+    }
+    return sb->oom ? AS_ERR_NOMEM : AS_OK;
+}
+
+/* Writes the SMILES for one full ranking. Returns new string or NULL. */
+static char *write_smiles(canon_ctx *c, const int *rank, as_status *st)
+{
+    const as_mol *m = c->m;
+    int n = c->n;
+    writer w;
+    memset(&w, 0, sizeof w);
+    w.c = c;
+    w.rank = rank;
+    size_t na = (size_t)(n ? n : 1);
+    int *p = c->wblock;
+    w.visited = p, p += na;
+    w.parent = p, p += na;
+    w.seq = p, p += na;
+    w.child_start = p, p += na + 1;
+    w.children = p, p += na;
+    w.stack = p, p += na;
+    w.it = p, p += na;
+    w.nchild = p, p += na;
+    w.byrank = p, p += na;
+    w.ci = p, p += na;
+    w.nbuf = p, p += na * AS_MAX_DEGREE;
+    w.written_first = p;
+    w.rb = c->wrb;
+    w.dir = c->wdir;
+    memset(w.dir, 0, (size_t)(m->nbonds ? m->nbonds : 1));
+    sbuf sb = {0};
+    /* a first guess at the length saves most reallocations */
+    sb.cap = (size_t)n * 3 + 16;
+    sb.s = malloc(sb.cap);
+    char *out = NULL;
+    *st = AS_ERR_NOMEM;
+    if (!sb.s)
+        return NULL;
+    sb.s[0] = '\0';
+    build_tree(&w);
+    assign_dirs(&w);
+    *st = emit(&w, &sb);
+    if (*st == AS_OK) {
+        out = sb.s;
+        sb.s = NULL;
+    }
+    free(sb.s);
+    return out;
+}
+
+/* ---------------------------------------------------------------- search over tie breaks */
+
+static void consider(canon_ctx *c, char *s)
+{
+    size_t l = strlen(s);
+    if (!c->best || l < c->best_len || (l == c->best_len && strcmp(s, c->best) < 0)) {
+        free(c->best);
+        c->best = s;
+        c->best_len = l;
+    } else {
+        free(s);
+    }
+}
+
+/* Number of ring bonds at atom a (a graph invariant: bonds that lie on a cycle). */
+static int ring_bond_count(const as_mol *m, int a)
+{
+    int k = 0;
+    for (int j = 0; j < m->atoms[a].degree; j++)
+        k += m->bonds[m->atoms[a].nbond[j]].ring_size > 0;
+    return k;
+}
+
+static void explore(canon_ctx *c, int *rank)
+{
+    int n = c->n;
+    int *work = malloc((size_t)(n ? n : 1) * sizeof(int));
+    int *cnt = calloc((size_t)(n ? n : 1), sizeof(int));
+    if (!work || !cnt) {
+        free(work);
+        free(cnt);
+        c->st = AS_ERR_NOMEM;
+        return;
+    }
+    for (;;) {
+        refine(c, rank);
+        memset(cnt, 0, (size_t)n * sizeof(int));
+        for (int i = 0; i < n; i++)
+            cnt[rank[i]]++;
+        /* the tie to break: the first tied class next to a stereo element when there is
+         * one (explored exhaustively below), else simply the first tied class */
+        int r = -1, r_near = -1;
+        for (int i = 0; i < n; i++)
+            if (cnt[rank[i]] > 1) {
+                if (r < 0 || rank[i] < r)
+                    r = rank[i];
+                if (c->has_stereo && c->near_stereo[i] && (r_near < 0 || rank[i] < r_near))
+                    r_near = rank[i];
+            }
+        if (r_near >= 0)
+            r = r_near;
+        if (r < 0) {
+            as_status st;
+            char *s = write_smiles(c, rank, &st);
+            if (!s) {
+                c->st = st;
+                break;
+            }
+            c->leaves++;
+            consider(c, s);
+            break;
+        }
+        /* members of the first tied class, in atom order; branching pays only where the
+         * class touches a stereo element (swapping the F atoms of a CF3 cannot change the
+         * string, swapping two mirror-related stereocentres can) */
+        /* In acyclic parts refinement classes are automorphism orbits (trees), so any
+         * member will do, and so they are for atoms of a single ring (phenyl ortho pairs);
+         * where rings fuse or bridge (three or more ring bonds on the atom) a class can hold
+         * atoms that no symmetry exchanges (cages), so those ties are explored too. */
+        int branch = r_near >= 0;
+        for (int i = 0; i < n && !branch; i++)
+            branch = rank[i] == r && ring_bond_count(c->m, i) >= 3;
+        int first = -1;
+        for (int i = 0; i < n; i++)
+            if (rank[i] == r) {
+                if (first < 0) {
+                    first = i;
+                    if (!branch)
+                        break;
+                    continue;
+                }
+                if (c->leaves >= (c->has_stereo ? MAX_LEAVES : MAX_LEAVES / 4))
+                    break;
+                memcpy(work, rank, (size_t)n * sizeof(int));
+                for (int j = 0; j < n; j++)
+                    if (work[j] == r && j != i)
+                        work[j] = r + 1;
+                explore(c, work);
+                if (c->st != AS_OK)
+                    break;
+            }
+        if (c->st != AS_OK)
+            break;
+        for (int j = 0; j < n; j++)
+            if (rank[j] == r && j != first)
+                rank[j] = r + 1;
+    }
+    free(work);
+    free(cnt);
+}
+
+/* ---------------------------------------------------------------- public */
+
+void as_canon_opts_init(as_canon_opts *o)
+{
+    o->stereo = 1;
+    o->atom_maps = 1;
+    o->isotopes = 1;
+}
+
+static void ctx_free(canon_ctx *c)
+{
+    free(c->cls);
+    free(c->real_tetra);
+    free(c->real_db);
+    free(c->near_stereo);
+    free(c->order);
+    free(c->tmp);
+    free(c->scratch);
+    free(c->wblock);
+    free(c->wrb);
+    free(c->wdir);
+    free(c->best);
+}
+
+static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
+{
+    memset(c, 0, sizeof *c);
+    c->m = m;
+    c->o = o;
+    c->n = m->natoms;
+    size_t na = (size_t)(m->natoms ? m->natoms : 1);
+    c->cls = malloc(na * sizeof(int));
+    c->real_tetra = calloc((size_t)(m->ntetra ? m->ntetra : 1), 1);
+    c->real_db = calloc((size_t)(m->ndbs ? m->ndbs : 1), 1);
+    c->near_stereo = calloc(na, 1);
+    c->order = malloc(na * sizeof(int));
+    c->tmp = malloc(na * sizeof(int));
+    c->scratch = malloc(na * 11 * sizeof(int));
+    size_t nbd = (size_t)(m->nbonds ? m->nbonds : 1);
+    c->wblock = malloc((na * (11 + AS_MAX_DEGREE) + 1 + nbd) * sizeof(int));
+    c->wrb = malloc(nbd * sizeof(ringbond));
+    c->wdir = malloc(nbd);
+    if (!c->cls || !c->real_tetra || !c->real_db || !c->near_stereo || !c->order || !c->tmp || !c->scratch ||
+        !c->wblock || !c->wrb || !c->wdir)
+        return AS_ERR_NOMEM;
+    initial_ranks(c, c->cls);
+    if (c->st != AS_OK)
+        return c->st;
+    refine(c, c->cls);
+    return AS_OK;
+}
+
+as_status as_canon_classes(const as_mol *m, int *cls, as_error *err)
+{
+    as_canon_opts o;
+    as_canon_opts_init(&o);
+    canon_ctx c;
+    as_status st = ctx_init(&c, m, &o);
+    if (st == AS_OK) {
+        /* dense 0-based class numbers in rank order */
+        int *map = malloc((size_t)(m->natoms ? m->natoms : 1) * sizeof(int));
+        if (!map) {
+            st = AS_ERR_NOMEM;
+        } else {
+            for (int i = 0; i < m->natoms; i++)
+                map[i] = -1;
+            for (int i = 0; i < m->natoms; i++)
+                map[c.cls[i]] = 0;
+            int k = 0;
+            for (int i = 0; i < m->natoms; i++)
+                if (map[i] == 0)
+                    map[i] = k++;
+            for (int i = 0; i < m->natoms; i++)
+                cls[i] = map[c.cls[i]];
+            free(map);
+        }
+    }
+    ctx_free(&c);
+    if (st != AS_OK)
+        return as_error_set(err, st, -1, -1, "out of memory while ranking atoms");
+    return AS_OK;
+}
+
+/* Folds plain explicit hydrogen atoms ([H] bonded to one heavy atom, no isotope, charge or
+ * class) into their neighbour's H count, so "[H]C" and "C" write alike. Returns a new
+ * molecule, or NULL when there is nothing to fold (or out of memory: *oom set). */
+static as_mol *fold_hydrogens(const as_mol *m, int *oom)
+{
+    *oom = 0;
+    int any = 0;
+    for (int i = 0; i < m->natoms && !any; i++) {
+        const as_atom *a = &m->atoms[i];
+        any = a->elem == 1 && a->isotope < 0 && a->charge == 0 && a->mapnum == 0 &&
+              a->degree == 1 && m->atoms[a->nbr[0]].elem != 1 &&
+              m->bonds[a->nbond[0]].order == AS_BOND_SINGLE;
+    }
+    if (!any)
+        return NULL;
+    as_mol *c = as_mol_copy(m);
+    if (!c) {
+        *oom = 1;
+        return NULL;
+    }
+    for (int i = c->natoms - 1; i >= 0; i--) {
+        const as_atom *a = &c->atoms[i];
+        if (!(a->elem == 1 && a->isotope < 0 && a->charge == 0 && a->mapnum == 0 &&
+              a->degree == 1 && c->atoms[a->nbr[0]].elem != 1 &&
+              c->bonds[a->nbond[0]].order == AS_BOND_SINGLE))
+            continue;
+        int heavy = a->nbr[0];
+        /* a centre can hold one implicit H in its stereo record */
+        int ti = as_mol_find_tetra(c, heavy), clash = 0;
+        if (ti >= 0)
+            for (int k = 0; k < 4; k++)
+                clash |= c->tetra[ti].nbr[k] == AS_IMPLICIT_H;
+        if (clash)
+            continue;
+        c->atoms[heavy].total_h++;
+        if (c->atoms[heavy].hcount >= 0)
+            c->atoms[heavy].hcount++;
+        int keep_perceived = c->perceived;
+        if (as_mol_remove_atom(c, i) != AS_OK) {
+            as_mol_free(c);
+            *oom = 1;
+            return NULL;
+        }
+        c->perceived = keep_perceived;
+    }
+    /* ring data index atoms: hydrogens are never ring atoms, but indices shifted */
+    if (as_perceive(c, AS_PASS_RINGS, NULL, NULL) != AS_OK) {
+        as_mol_free(c);
+        *oom = 1;
+        return NULL;
+    }
+    return c;
+}
+
+as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out,
+                          as_error *err)
+{
+    as_canon_opts defaults;
+    if (!opts) {
+        as_canon_opts_init(&defaults);
+        opts = &defaults;
+    }
+    *out = NULL;
+    if (m->natoms == 0) {
+        *out = calloc(1, 1);
+        return *out ? AS_OK : as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    }
+    int oom = 0;
+    as_mol *folded = fold_hydrogens(m, &oom);
+    if (oom)
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    if (folded)
+        m = folded;
+    canon_ctx c;
+    as_status st = ctx_init(&c, m, opts);
+    if (st == AS_OK) {
+        find_real_stereo(&c);
+        st = c.st;
+    }
+    if (st == AS_OK && c.has_stereo) {
+        stereo_refine(&c);
+        st = c.st;
+    }
+    int *rank = NULL;
+    if (st == AS_OK) {
+        rank = malloc((size_t)m->natoms * sizeof(int));
+        if (!rank)
+            st = AS_ERR_NOMEM;
+    }
+    if (st == AS_OK) {
+        memcpy(rank, c.cls, (size_t)m->natoms * sizeof(int));
+        explore(&c, rank);
+        st = c.st;
+    }
+    if (st == AS_OK && c.best) {
+        *out = c.best;
+        c.best = NULL;
+    }
+    free(rank);
+    ctx_free(&c);
+    as_mol_free(folded);
+    if (st == AS_ERR_LIMIT)
+        return as_error_set(err, st, -1, -1,
+                            "more than 100 ring bonds open at once: cannot write SMILES");
+    if (st != AS_OK || !*out)
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory while writing SMILES");
+    return AS_OK;
+}
+
+as_status as_canon_from_text(const char *text, size_t len, const as_canon_opts *opts,
+                             char **out, as_error *err)
+{
+    as_mol *m = NULL;
+    *out = NULL;
+    as_status st = as_smiles_parse(text, len, &m, err);
+    if (st != AS_OK)
+        return st;
+    st = as_canon_smiles(m, opts, out, err);
+    as_mol_free(m);
+    return st;
+}

@@ -1,0 +1,853 @@
+/* perceive.c — chemical perception as ordered passes over a freshly read molecule.
+ * Owns: implicit H (OpenSMILES default valences), valence check, SSSR and ring sizes,
+ * kekulisation of lowercase input, Hückel aromaticity, stereo records that cannot be real.
+ * Must not: print anything. */
+#include "addsite/perceive.h"
+#include "status_int.h"
+
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* ---------------------------------------------------------------- valence tables */
+
+/* Normal valences of the organic subset (OpenSMILES "implicit hydrogens" table). */
+static const struct {
+    int elem;
+    int v[3];
+} default_valences[] = {
+    {5, {3, 0, 0}},  {6, {4, 0, 0}}, {7, {3, 5, 0}},  {8, {2, 0, 0}},  {15, {3, 5, 0}},
+    {16, {2, 4, 6}}, {9, {1, 0, 0}}, {17, {1, 0, 0}}, {35, {1, 0, 0}}, {53, {1, 0, 0}},
+};
+
+int as_default_valence(int elem, int used)
+{
+    for (size_t i = 0; i < sizeof default_valences / sizeof default_valences[0]; i++) {
+        if (default_valences[i].elem != elem)
+            continue;
+        for (int k = 0; k < 3 && default_valences[i].v[k]; k++)
+            if (default_valences[i].v[k] >= used)
+                return default_valences[i].v[k];
+        return -1;
+    }
+    return -1;
+}
+
+/* Largest valence allowed for a second-row atom, read through its isoelectronic neutral
+ * (N+ like C, O+ like N, C- like N, C+ like B ...); -1 when we do not police the element.
+ * Source: common practice (octet rule); N and P allow 5 to accept written nitro/phosphate. */
+static int max_valence(int elem, int charge)
+{
+    int z = elem - charge;
+    if (elem != 5 && elem != 6 && elem != 7 && elem != 8 && elem != 9)
+        return -1;
+    switch (z) {
+    case 5: return 3;  /* B, C+ */
+    case 6: return 4;  /* C, N+, B- */
+    case 7: return elem == 7 ? 5 : 3; /* N (nitro written N(=O)=O), C-, O+ */
+    case 8: return 2;  /* O, N- */
+    case 9: return 1;  /* F, O- */
+    case 4: return 2;  /* B+ */
+    default: return -1;
+    }
+}
+
+/* Kekulé valence: bond orders with aromatic bonds counted as 1 (before kekulisation). */
+static int order_sum(const as_mol *m, int a)
+{
+    return as_mol_bond_order_sum(m, a);
+}
+
+/* ---------------------------------------------------------------- pass: hydrogens */
+
+static as_status pass_hydrogens(as_mol *m, as_error *err)
+{
+    (void)err;
+    for (int i = 0; i < m->natoms; i++) {
+        as_atom *a = &m->atoms[i];
+        if (a->hcount >= 0) {
+            a->total_h = a->hcount;
+            continue;
+        }
+        if (a->elem == 0) {
+            a->total_h = 0;
+            continue;
+        }
+        int sum = order_sum(m, i);
+        int v = as_default_valence(a->elem, sum);
+        if (v < 0) {
+            a->total_h = 0;
+            continue;
+        }
+        /* the aromatic pi contribution is subtracted only while the bonds are still written
+         * aromatic; a molecule perceived before holds Kekulé orders that already count it */
+        int arom_bonds = 0;
+        for (int k = 0; k < a->degree; k++)
+            arom_bonds += m->bonds[a->nbond[k]].order == AS_BOND_AROMATIC;
+        int h = v - sum - (a->aromatic && arom_bonds ? 1 : 0);
+        a->total_h = h > 0 ? h : 0;
+    }
+    return AS_OK;
+}
+
+/* ---------------------------------------------------------------- pass: valence */
+
+static as_status check_valence_atom(const as_mol *m, int i, as_error *err)
+{
+    const as_atom *a = &m->atoms[i];
+    if ((a->elem == 17 || a->elem == 35 || a->elem == 53) && a->charge == 0 && !a->bracket) {
+        /* neutral Cl, Br, I: valence 1, 3, 5 or 7 (perchlorate, periodinanes) */
+        int v = a->total_h;
+        for (int k = 0; k < a->degree; k++)
+            v += m->bonds[a->nbond[k]].order == AS_BOND_AROMATIC ? 1 : m->bonds[a->nbond[k]].order;
+        if (v > 7 || v % 2 == 0)
+            return as_error_set(err, AS_ERR_VALENCE, a->src_offset, i,
+                                "atom %d (%s) has %d bonds to it; a neutral halogen takes 1, 3, 5 or 7",
+                                i + 1, as_element_symbol(a->elem), v);
+        return AS_OK;
+    }
+    int maxv = max_valence(a->elem, a->charge);
+    if (maxv < 0)
+        return AS_OK;
+    int v = 0;
+    for (int k = 0; k < a->degree; k++) {
+        int o = m->bonds[a->nbond[k]].order;
+        v += o == AS_BOND_AROMATIC ? 1 : o;
+    }
+    v += a->total_h;
+    if (v > maxv) {
+        const char *sym = as_element_symbol(a->elem);
+        return as_error_set(err, AS_ERR_VALENCE, a->src_offset, i,
+                            "atom %d (%s%s) has %d bonds to it, more than its valence of %d allows",
+                            i + 1, sym ? sym : "?", a->charge > 0 ? "+" : a->charge < 0 ? "-" : "",
+                            v, maxv);
+    }
+    return AS_OK;
+}
+
+static as_status pass_valence(as_mol *m, as_error *err)
+{
+    for (int i = 0; i < m->natoms; i++) {
+        if (m->atoms[i].aromatic)
+            continue; /* checked after kekulisation */
+        as_status st = check_valence_atom(m, i, err);
+        if (st != AS_OK)
+            return st;
+    }
+    return AS_OK;
+}
+
+/* ---------------------------------------------------------------- pass: rings */
+
+typedef struct ring_work {
+    int nb;           /* bonds */
+    int words;        /* 64-bit words per bond set */
+    uint64_t *basis;  /* accepted ring bond sets, reduced */
+    int *pivot;       /* pivot bit of each basis row */
+    int nbasis;
+} ring_work;
+
+/* Tarjan bridge finding, iterative: is_ring_bond[b] = 1 when b lies on a cycle. */
+static int find_ring_bonds(const as_mol *m, char *is_ring_bond)
+{
+    int n = m->natoms;
+    int *disc = malloc((size_t)n * sizeof(int));
+    int *low = malloc((size_t)n * sizeof(int));
+    int *parent_bond = malloc((size_t)n * sizeof(int));
+    int *iter = malloc((size_t)n * sizeof(int));
+    int *stack = malloc((size_t)n * sizeof(int));
+    if (!disc || !low || !parent_bond || !iter || !stack) {
+        free(disc);
+        free(low);
+        free(parent_bond);
+        free(iter);
+        free(stack);
+        return -1;
+    }
+    for (int i = 0; i < n; i++)
+        disc[i] = -1;
+    memset(is_ring_bond, 1, (size_t)m->nbonds);
+    int t = 0;
+    for (int s = 0; s < n; s++) {
+        if (disc[s] >= 0)
+            continue;
+        int top = 0;
+        stack[top++] = s;
+        disc[s] = low[s] = t++;
+        parent_bond[s] = -1;
+        iter[s] = 0;
+        while (top) {
+            int u = stack[top - 1];
+            if (iter[u] < m->atoms[u].degree) {
+                int k = iter[u]++;
+                int v = m->atoms[u].nbr[k], b = m->atoms[u].nbond[k];
+                if (b == parent_bond[u])
+                    continue;
+                if (disc[v] < 0) {
+                    disc[v] = low[v] = t++;
+                    parent_bond[v] = b;
+                    iter[v] = 0;
+                    stack[top++] = v;
+                } else if (disc[v] < low[u]) {
+                    low[u] = disc[v];
+                }
+            } else {
+                top--;
+                if (top) {
+                    int p = stack[top - 1];
+                    if (low[u] < low[p])
+                        low[p] = low[u];
+                    if (low[u] > disc[p])
+                        is_ring_bond[parent_bond[u]] = 0;
+                }
+            }
+        }
+    }
+    free(disc);
+    free(low);
+    free(parent_bond);
+    free(iter);
+    free(stack);
+    return 0;
+}
+
+/* Inserts set into the GF(2) basis when independent; returns 1 when added. */
+static int basis_add(ring_work *w, uint64_t *set)
+{
+    for (int r = 0; r < w->nbasis; r++) {
+        int p = w->pivot[r];
+        if (set[p / 64] >> (p % 64) & 1) {
+            const uint64_t *row = w->basis + (size_t)r * (size_t)w->words;
+            for (int k = 0; k < w->words; k++)
+                set[k] ^= row[k];
+        }
+    }
+    int piv = -1;
+    for (int k = 0; k < w->words && piv < 0; k++)
+        if (set[k])
+            piv = k * 64 + __builtin_ctzll(set[k]);
+    if (piv < 0)
+        return 0;
+    /* keep rows reduced at their pivots */
+    for (int r = 0; r < w->nbasis; r++) {
+        uint64_t *row = w->basis + (size_t)r * (size_t)w->words;
+        if (row[piv / 64] >> (piv % 64) & 1)
+            for (int k = 0; k < w->words; k++)
+                row[k] ^= set[k];
+    }
+    memcpy(w->basis + (size_t)w->nbasis * (size_t)w->words, set,
+           (size_t)w->words * sizeof(uint64_t));
+    w->pivot[w->nbasis++] = piv;
+    return 1;
+}
+
+typedef struct cand {
+    int size;
+    int start;   /* offset into the atom pool */
+} cand;
+
+static int cand_cmp(const void *x, const void *y)
+{
+    const cand *a = x, *b = y;
+    if (a->size != b->size)
+        return a->size - b->size;
+    return a->start - b->start;
+}
+
+static as_status pass_rings(as_mol *m, as_error *err)
+{
+    free(m->ring_start);
+    free(m->ring_atoms);
+    m->ring_start = NULL;
+    m->ring_atoms = NULL;
+    m->nrings = 0;
+    for (int i = 0; i < m->natoms; i++)
+        m->atoms[i].ring_size = 0;
+    for (int i = 0; i < m->nbonds; i++)
+        m->bonds[i].ring_size = 0;
+    if (m->nbonds == 0)
+        return AS_OK;
+    int *comp = malloc((size_t)m->natoms * sizeof(int));
+    if (!comp)
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    int ncomp = as_mol_components(m, comp);
+    free(comp);
+    int target = m->nbonds - m->natoms + ncomp;
+    if (target <= 0)
+        return AS_OK;
+
+    as_status st = AS_OK;
+    int n = m->natoms;
+    char *ringb = malloc((size_t)m->nbonds);
+    int *dist = malloc((size_t)n * sizeof(int));
+    int *prevb = malloc((size_t)n * sizeof(int));
+    int *queue = malloc((size_t)n * sizeof(int));
+    cand *cands = NULL;
+    int ncands = 0, capc = 0;
+    int *pool = NULL;
+    int npool = 0, cappool = 0;
+    ring_work w = {m->nbonds, (m->nbonds + 63) / 64, NULL, NULL, 0};
+    uint64_t *set = NULL;
+    if (!ringb || !dist || !prevb || !queue || find_ring_bonds(m, ringb)) {
+        st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+        goto out;
+    }
+    /* Candidates: for each ring bond u-v, the shortest path v..u avoiding the bond, closed by
+     * it; every bond's smallest ring is then known exactly. */
+    for (int b = 0; b < m->nbonds; b++) {
+        if (!ringb[b])
+            continue;
+        int u = m->bonds[b].a, v = m->bonds[b].b;
+        for (int i = 0; i < n; i++)
+            dist[i] = -1;
+        int head = 0, tail = 0;
+        queue[tail++] = v;
+        dist[v] = 0;
+        prevb[v] = -1;
+        while (head < tail && dist[u] < 0) {
+            int x = queue[head++];
+            for (int k = 0; k < m->atoms[x].degree; k++) {
+                int bk = m->atoms[x].nbond[k], y = m->atoms[x].nbr[k];
+                if (bk == b || !ringb[bk] || dist[y] >= 0)
+                    continue;
+                dist[y] = dist[x] + 1;
+                prevb[y] = x;
+                queue[tail++] = y;
+            }
+        }
+        if (dist[u] < 0)
+            continue;
+        int size = dist[u] + 1;
+        if (npool + size > cappool) {
+            int nc = cappool ? cappool * 2 : 256;
+            while (nc < npool + size)
+                nc *= 2;
+            int *p = realloc(pool, (size_t)nc * sizeof(int));
+            if (!p) {
+                st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+                goto out;
+            }
+            pool = p;
+            cappool = nc;
+        }
+        if (ncands == capc) {
+            int nc = capc ? capc * 2 : 64;
+            cand *c = realloc(cands, (size_t)nc * sizeof(cand));
+            if (!c) {
+                st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+                goto out;
+            }
+            cands = c;
+            capc = nc;
+        }
+        cands[ncands].size = size;
+        cands[ncands].start = npool;
+        ncands++;
+        for (int x = u; x != -1; x = prevb[x])
+            pool[npool++] = x;
+        m->bonds[b].ring_size = size;
+    }
+    qsort(cands, (size_t)ncands, sizeof(cand), cand_cmp);
+    w.basis = calloc((size_t)target * (size_t)w.words, sizeof(uint64_t));
+    w.pivot = malloc((size_t)target * sizeof(int));
+    set = malloc((size_t)w.words * sizeof(uint64_t));
+    m->ring_start = malloc((size_t)(target + 1) * sizeof(int));
+    m->ring_atoms = malloc((size_t)(npool > 0 ? npool : 1) * sizeof(int));
+    if (!w.basis || !w.pivot || !set || !m->ring_start || !m->ring_atoms) {
+        st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+        goto out;
+    }
+    int used = 0;
+    m->ring_start[0] = 0;
+    for (int c = 0; c < ncands && m->nrings < target; c++) {
+        memset(set, 0, (size_t)w.words * sizeof(uint64_t));
+        const int *ra = pool + cands[c].start;
+        int sz = cands[c].size;
+        for (int k = 0; k < sz; k++) {
+            int bk = as_mol_bond_between(m, ra[k], ra[(k + 1) % sz]);
+            set[bk / 64] |= (uint64_t)1 << (bk % 64);
+        }
+        if (!basis_add(&w, set))
+            continue;
+        memcpy(m->ring_atoms + used, ra, (size_t)sz * sizeof(int));
+        used += sz;
+        m->nrings++;
+        m->ring_start[m->nrings] = used;
+    }
+    for (int b = 0; b < m->nbonds; b++) {
+        int s = m->bonds[b].ring_size;
+        if (!s)
+            continue;
+        for (int e = 0; e < 2; e++) {
+            as_atom *a = &m->atoms[e ? m->bonds[b].b : m->bonds[b].a];
+            if (!a->ring_size || s < a->ring_size)
+                a->ring_size = s;
+        }
+    }
+out:
+    free(ringb);
+    free(dist);
+    free(prevb);
+    free(queue);
+    free(cands);
+    free(pool);
+    free(w.basis);
+    free(w.pivot);
+    free(set);
+    return st;
+}
+
+/* ---------------------------------------------------------------- pass: kekulisation */
+
+/* 1 when the aromatic atom must take one double bond inside the aromatic system. */
+static int needs_double(const as_mol *m, int i)
+{
+    const as_atom *a = &m->atoms[i];
+    int z = a->elem - a->charge; /* isoelectronic neutral */
+    int v;
+    switch (z) {
+    case 5: v = 3; break;   /* B, C+ */
+    case 6: v = 4; break;   /* C, N+ */
+    case 7: v = 3; break;   /* N, O+, C- */
+    case 8: v = 2; break;   /* O, N- */
+    case 15: v = 3; break;  /* P */
+    case 16: v = 2; break;  /* S */
+    case 14: v = 4; break;  /* P+ */
+    case 33: v = 3; break;  /* As */
+    case 34: v = 2; break;  /* Se */
+    case 52: v = 2; break;  /* Te */
+    default: return 0;
+    }
+    int sum = 0;
+    for (int k = 0; k < a->degree; k++) {
+        int o = m->bonds[a->nbond[k]].order;
+        sum += o == AS_BOND_AROMATIC ? 1 : o;
+    }
+    int free_v = v - sum - a->total_h;
+    if (free_v == 1)
+        return 1;
+    if (free_v == 3 && (z == 15 || z == 16)) /* hypervalent P/S in aromatic rings: rare */
+        return 1;
+    return 0;
+}
+
+typedef struct kek {
+    as_mol *m;
+    char *need;     /* atom still needs a double bond */
+    long steps;
+} kek;
+
+/* Picks a partner for the lowest-option atom, recursively. */
+static int kek_solve(kek *k)
+{
+    as_mol *m = k->m;
+    if (++k->steps > 2000000)
+        return -1;
+    int best = -1, best_opts = 99;
+    for (int i = 0; i < m->natoms; i++) {
+        if (!k->need[i])
+            continue;
+        int opts = 0;
+        const as_atom *a = &m->atoms[i];
+        for (int j = 0; j < a->degree; j++)
+            if (k->need[a->nbr[j]] && m->bonds[a->nbond[j]].order == AS_BOND_AROMATIC)
+                opts++;
+        if (opts < best_opts) {
+            best_opts = opts;
+            best = i;
+        }
+        if (opts <= 1)
+            break;
+    }
+    if (best < 0)
+        return 1;
+    if (best_opts == 0)
+        return 0;
+    const as_atom *a = &m->atoms[best];
+    for (int j = 0; j < a->degree; j++) {
+        int y = a->nbr[j], b = a->nbond[j];
+        if (!k->need[y] || m->bonds[b].order != AS_BOND_AROMATIC)
+            continue;
+        k->need[best] = k->need[y] = 0;
+        m->bonds[b].order = AS_BOND_DOUBLE;
+        int r = kek_solve(k);
+        if (r != 0)
+            return r;
+        m->bonds[b].order = AS_BOND_AROMATIC;
+        k->need[best] = k->need[y] = 1;
+    }
+    return 0;
+}
+
+static as_status pass_kekule(as_mol *m, as_error *err)
+{
+    int any = 0;
+    for (int i = 0; i < m->natoms; i++) {
+        as_atom *a = &m->atoms[i];
+        if (!a->aromatic)
+            continue;
+        any = 1;
+        if (!a->ring_size) {
+            return as_error_set(err, AS_ERR_AROMATIC, a->src_offset, i,
+                                "atom %d is written aromatic (lowercase) but is not in a ring", i + 1);
+        }
+    }
+    for (int b = 0; b < m->nbonds; b++) {
+        if (m->bonds[b].order == AS_BOND_AROMATIC && !m->bonds[b].ring_size) {
+            /* ':' outside a ring, or two lowercase atoms joined across rings without '-' */
+            const as_atom *x = &m->atoms[m->bonds[b].a], *y = &m->atoms[m->bonds[b].b];
+            if (!x->aromatic || !y->aromatic)
+                return as_error_set(err, AS_ERR_AROMATIC, y->src_offset, m->bonds[b].b,
+                                    "aromatic bond ':' between atoms %d and %d outside an "
+                                    "aromatic ring",
+                                    m->bonds[b].a + 1, m->bonds[b].b + 1);
+            m->bonds[b].order = AS_BOND_SINGLE; /* biphenyl-like link between two rings */
+        }
+    }
+    if (!any) {
+        for (int b = 0; b < m->nbonds; b++)
+            if (m->bonds[b].order == AS_BOND_AROMATIC)
+                return as_error_set(err, AS_ERR_AROMATIC, m->atoms[m->bonds[b].b].src_offset,
+                                    m->bonds[b].b,
+                                    "aromatic bond ':' between atoms that are not aromatic");
+        return AS_OK;
+    }
+    kek k = {m, calloc((size_t)m->natoms, 1), 0};
+    if (!k.need)
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    int first_need = -1;
+    for (int i = 0; i < m->natoms; i++) {
+        if (!m->atoms[i].aromatic)
+            continue;
+        int has_arom_bond = 0;
+        for (int j = 0; j < m->atoms[i].degree; j++)
+            if (m->bonds[m->atoms[i].nbond[j]].order == AS_BOND_AROMATIC)
+                has_arom_bond = 1;
+        if (has_arom_bond && needs_double(m, i)) {
+            k.need[i] = 1;
+            if (first_need < 0)
+                first_need = i;
+        }
+    }
+    int r = kek_solve(&k);
+    as_status st = AS_OK;
+    if (r <= 0) {
+        int bad = first_need;
+        for (int i = 0; i < m->natoms; i++)
+            if (k.need[i]) {
+                bad = i;
+                break;
+            }
+        /* point at the usual culprit: a pyrrole-type n without its H in a five-membered
+         * ring, or an [nH] in a six-membered ring */
+        for (int i = 0; i < m->natoms; i++) {
+            const as_atom *x = &m->atoms[i];
+            if (!x->aromatic || x->elem != 7 || x->charge != 0 || x->degree != 2)
+                continue;
+            if ((x->total_h == 0 && x->ring_size == 5) || (x->total_h == 1 && x->ring_size == 6)) {
+                bad = i;
+                break;
+            }
+        }
+        if (bad < 0)
+            bad = 0;
+        const as_atom *a = &m->atoms[bad];
+        int has_pyrrole_n = 0;
+        for (int i = 0; i < m->natoms; i++)
+            if (m->atoms[i].aromatic && m->atoms[i].elem == 7 && m->atoms[i].total_h == 0 &&
+                m->atoms[i].degree == 2 && m->atoms[i].charge == 0)
+                has_pyrrole_n = 1;
+        st = as_error_set(err, AS_ERR_AROMATIC, a->src_offset, bad,
+                          "cannot kekulise the aromatic ring system at atom %d%s", bad + 1,
+                          has_pyrrole_n
+                              ? ": a pyrrole-type nitrogen needs its hydrogen written, as [nH]"
+                              : ": no arrangement of double bonds fits the written atoms");
+    } else {
+        for (int b = 0; b < m->nbonds; b++)
+            if (m->bonds[b].order == AS_BOND_AROMATIC)
+                m->bonds[b].order = AS_BOND_SINGLE;
+        for (int i = 0; i < m->natoms && st == AS_OK; i++)
+            if (m->atoms[i].aromatic)
+                st = check_valence_atom(m, i, err);
+    }
+    free(k.need);
+    return st;
+}
+
+/* ---------------------------------------------------------------- pass: aromaticity */
+
+/* π electrons atom i gives to a ring made of the atoms flagged in inring; -1 when the atom
+ * cannot be part of an aromatic ring. Model: Hückel, common practice (as in most toolkits):
+ * ring double bond 1 e; exocyclic C=O/C=N/C=S 0 e; lone pair (NH, NR, O, S, C-) 2 e;
+ * empty p orbital (C+, B) 0 e. */
+static int pi_electrons(const as_mol *m, int i, const char *inring, const char *arom)
+{
+    const as_atom *a = &m->atoms[i];
+    int dbl_in = 0, dbl_exo = -1, sum = 0, triple = 0;
+    for (int k = 0; k < a->degree; k++) {
+        const as_bond *b = &m->bonds[a->nbond[k]];
+        sum += b->order;
+        if (b->order == AS_BOND_TRIPLE)
+            triple = 1;
+        if (b->order == AS_BOND_DOUBLE) {
+            int y = a->nbr[k];
+            if (inring[y])
+                dbl_in++;
+            else
+                dbl_exo = y;
+        }
+    }
+    if (triple)
+        return -1;
+    if (dbl_in == 1)
+        return 1;
+    if (dbl_in > 1)
+        return -1;
+    if (dbl_exo >= 0) {
+        const as_atom *y = &m->atoms[dbl_exo];
+        if (arom && arom[dbl_exo])
+            return 1; /* double bond into a neighbouring aromatic ring */
+        if (y->elem == 8 || y->elem == 7 || y->elem == 16)
+            return a->elem == 6 ? 0 : -1; /* C=O in pyridones, not S=O or P=O */
+        return -1;
+    }
+    int z = a->elem - a->charge;
+    int bonds = sum + a->total_h;
+    switch (a->elem) {
+    case 6:
+        if (a->charge == -1 && bonds == 3)
+            return 2;
+        if (a->charge == 1 && bonds == 3)
+            return 0;
+        return -1;
+    case 7:
+    case 15:
+    case 33:
+        if (a->charge == 0 && bonds == 3)
+            return 2;
+        if (a->charge == -1 && bonds == 2)
+            return 2;
+        return -1;
+    case 8:
+    case 16:
+    case 34:
+    case 52:
+        if (a->charge == 0 && bonds == 2)
+            return 2;
+        return -1;
+    case 5:
+        if (a->charge == 0 && bonds == 3)
+            return 0;
+        if (a->charge == -1 && bonds == 4)
+            return -1;
+        return -1;
+    default:
+        (void)z;
+        return -1;
+    }
+}
+
+/* Tests one set of rings (their atoms in inring) for 4n+2. */
+static int ring_set_aromatic(const as_mol *m, const int *atoms, int n, char *inring,
+                             const char *arom)
+{
+    int total = 0;
+    for (int k = 0; k < n; k++)
+        inring[atoms[k]] = 1;
+    int ok = 1;
+    for (int k = 0; k < n && ok; k++) {
+        int e = pi_electrons(m, atoms[k], inring, arom);
+        if (e < 0)
+            ok = 0;
+        total += e;
+    }
+    for (int k = 0; k < n; k++)
+        inring[atoms[k]] = 0;
+    return ok && total % 4 == 2;
+}
+
+static as_status pass_aromatic(as_mol *m, as_error *err)
+{
+    for (int i = 0; i < m->natoms; i++)
+        m->atoms[i].aromatic = 0;
+    for (int b = 0; b < m->nbonds; b++)
+        m->bonds[b].aromatic = 0;
+    if (m->nrings == 0)
+        return AS_OK;
+    char *inring = calloc((size_t)m->natoms, 1);
+    char *arom = calloc((size_t)m->natoms, 1);
+    char *ring_done = calloc((size_t)m->nrings, 1);
+    int *buf = malloc((size_t)(m->natoms + 1) * sizeof(int));
+    if (!inring || !arom || !ring_done || !buf) {
+        free(inring);
+        free(arom);
+        free(ring_done);
+        free(buf);
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    }
+    /* Single rings first, then unions of two and three fused rings, repeated while new
+     * rings become aromatic (a double bond into an aromatic neighbour counts 1 e). */
+    int changed = 1;
+    while (changed) {
+        changed = 0;
+        for (int r = 0; r < m->nrings; r++) {
+            if (ring_done[r])
+                continue;
+            int s = m->ring_start[r], e = m->ring_start[r + 1];
+            if (e - s > 24)
+                continue;
+            if (ring_set_aromatic(m, m->ring_atoms + s, e - s, inring, arom)) {
+                ring_done[r] = 1;
+                changed = 1;
+                for (int k = s; k < e; k++)
+                    arom[m->ring_atoms[k]] = 1;
+            }
+        }
+        for (int r1 = 0; r1 < m->nrings; r1++) {
+            for (int r2 = r1 + 1; r2 < m->nrings; r2++) {
+                if (ring_done[r1] && ring_done[r2])
+                    continue;
+                int s1 = m->ring_start[r1], e1 = m->ring_start[r1 + 1];
+                int s2 = m->ring_start[r2], e2 = m->ring_start[r2 + 1];
+                if (e1 - s1 + e2 - s2 > 24)
+                    continue;
+                /* fused: share at least two atoms (a bond) */
+                int shared = 0, n = 0;
+                for (int k = s1; k < e1; k++)
+                    buf[n++] = m->ring_atoms[k];
+                for (int k = s2; k < e2; k++) {
+                    int x = m->ring_atoms[k], dup = 0;
+                    for (int j = s1; j < e1; j++)
+                        if (m->ring_atoms[j] == x)
+                            dup = 1;
+                    if (dup)
+                        shared++;
+                    else
+                        buf[n++] = x;
+                }
+                if (shared < 2)
+                    continue;
+                if (ring_set_aromatic(m, buf, n, inring, arom)) {
+                    if (!ring_done[r1] || !ring_done[r2])
+                        changed = 1;
+                    ring_done[r1] = ring_done[r2] = 1;
+                    for (int k = 0; k < n; k++)
+                        arom[buf[k]] = 1;
+                }
+            }
+        }
+    }
+    for (int r = 0; r < m->nrings; r++) {
+        if (!ring_done[r])
+            continue;
+        int s = m->ring_start[r], e = m->ring_start[r + 1];
+        for (int k = s; k < e; k++) {
+            int x = m->ring_atoms[k], y = m->ring_atoms[s + (k - s + 1) % (e - s)];
+            m->atoms[x].aromatic = 1;
+            int b = as_mol_bond_between(m, x, y);
+            if (b >= 0)
+                m->bonds[b].aromatic = 1;
+        }
+    }
+    free(inring);
+    free(arom);
+    free(ring_done);
+    free(buf);
+    return AS_OK;
+}
+
+/* ---------------------------------------------------------------- pass: stereo */
+
+/* 1 when atom a is a bridgehead: it lies on two SSSR rings that share three or more atoms
+ * (a bridged, not merely fused, system), where an amine nitrogen cannot invert. */
+static int bridgehead(const as_mol *m, int a)
+{
+    for (int r1 = 0; r1 < m->nrings; r1++) {
+        int in1 = 0;
+        for (int k = m->ring_start[r1]; k < m->ring_start[r1 + 1]; k++)
+            in1 |= m->ring_atoms[k] == a;
+        if (!in1)
+            continue;
+        for (int r2 = r1 + 1; r2 < m->nrings; r2++) {
+            int in2 = 0, shared = 0;
+            for (int k = m->ring_start[r2]; k < m->ring_start[r2 + 1]; k++) {
+                int x = m->ring_atoms[k];
+                in2 |= x == a;
+                for (int j = m->ring_start[r1]; j < m->ring_start[r1 + 1]; j++)
+                    shared += m->ring_atoms[j] == x;
+            }
+            if (in2 && shared >= 3)
+                return 1;
+        }
+    }
+    return 0;
+}
+
+static as_status pass_stereo(as_mol *m, as_error *err)
+{
+    (void)err;
+    for (int i = m->ntetra - 1; i >= 0; i--) {
+        const as_tetra *t = &m->tetra[i];
+        const as_atom *a = &m->atoms[t->center];
+        int nh = 0, keep = 1;
+        for (int k = 0; k < 4; k++)
+            nh += t->nbr[k] == AS_IMPLICIT_H;
+        if (a->aromatic || a->total_h > 1 || nh > 1)
+            keep = 0;
+        /* P, S, Se centres may carry =O (sulfoxides, phosphonates); others all single */
+        int hyper = a->elem == 15 || a->elem == 16 || a->elem == 34;
+        for (int k = 0; k < a->degree && keep; k++) {
+            int o = m->bonds[a->nbond[k]].order;
+            if (o != AS_BOND_SINGLE && !(hyper && o == AS_BOND_DOUBLE))
+                keep = 0;
+        }
+        if (keep && a->degree + a->total_h == 3) {
+            /* lone-pair centres: keep S, P, Se and ring-strained N (aziridines) */
+            if (a->elem == 7 && a->charge == 0)
+                keep = a->ring_size == 3 || bridgehead(m, t->center);
+            else if (a->elem == 6)
+                keep = 0;
+        } else if (keep && a->degree + a->total_h != 4) {
+            keep = 0;
+        }
+        if (!keep)
+            m->tetra[i] = m->tetra[--m->ntetra];
+    }
+    for (int i = m->ndbs - 1; i >= 0; i--) {
+        const as_bond *b = &m->bonds[m->dbs[i].bond];
+        int keep = b->order == AS_BOND_DOUBLE && !b->aromatic &&
+                   (b->ring_size == 0 || b->ring_size >= 8);
+        if (!keep)
+            m->dbs[i] = m->dbs[--m->ndbs];
+    }
+    return AS_OK;
+}
+
+/* ---------------------------------------------------------------- driver */
+
+as_status as_perceive(as_mol *m, unsigned passes, unsigned *failed_pass, as_error *err)
+{
+    static const struct {
+        unsigned bit;
+        as_status (*run)(as_mol *, as_error *);
+    } table[] = {
+        {AS_PASS_HYDROGENS, pass_hydrogens}, {AS_PASS_VALENCE, pass_valence},
+        {AS_PASS_RINGS, pass_rings},         {AS_PASS_KEKULE, pass_kekule},
+        {AS_PASS_AROMATIC, pass_aromatic},   {AS_PASS_STEREO, pass_stereo},
+    };
+    if (failed_pass)
+        *failed_pass = 0;
+    for (size_t i = 0; i < sizeof table / sizeof table[0]; i++) {
+        if (!(passes & table[i].bit))
+            continue;
+        as_status st = table[i].run(m, err);
+        if (st != AS_OK) {
+            if (failed_pass)
+                *failed_pass = table[i].bit;
+            return st;
+        }
+    }
+    if ((passes & AS_PASS_ALL) == AS_PASS_ALL)
+        m->perceived = 1;
+    return AS_OK;
+}

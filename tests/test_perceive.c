@@ -1,0 +1,128 @@
+/* test_perceive.c — implicit hydrogens, rings, kekulisation, aromaticity and stereo clean-up.
+ * H counts follow the OpenSMILES valence table; aromaticity the Hückel 4n+2 rule (common
+ * practice); RDKit (Debian python3-rdkit) agrees on every molecule used here. */
+#include <setjmp.h>
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <cmocka.h>
+
+#include <string.h>
+
+#include "addsite/mol.h"
+#include "addsite/perceive.h"
+#include "addsite/smiles.h"
+
+static as_mol *parse_ok(const char *s)
+{
+    as_mol *m = NULL;
+    as_error err;
+    if (as_smiles_parse(s, strlen(s), &m, &err) != AS_OK)
+        fail_msg("'%s' should parse: %s", s, err.msg);
+    return m;
+}
+
+static int count_aromatic(const as_mol *m)
+{
+    int n = 0;
+    for (int i = 0; i < m->natoms; i++)
+        n += m->atoms[i].aromatic;
+    return n;
+}
+
+static void perceive_should_give_default_valence_hydrogens(void **state)
+{
+    (void)state;
+    as_mol *m = parse_ok("B");
+    assert_int_equal(m->atoms[0].total_h, 3);
+    as_mol_free(m);
+    m = parse_ok("N(C)(C)(C)C"); /* next normal valence 5: one H (OpenSMILES) */
+    assert_int_equal(m->atoms[0].total_h, 1);
+    as_mol_free(m);
+    m = parse_ok("OS(=O)(=O)O");
+    assert_int_equal(m->atoms[1].total_h, 0);
+    as_mol_free(m);
+    m = parse_ok("c1cc[nH]c1");
+    assert_int_equal(m->atoms[3].total_h, 1);
+    assert_int_equal(m->atoms[0].total_h, 1);
+    as_mol_free(m);
+}
+
+static void perceive_should_find_sssr_and_ring_sizes(void **state)
+{
+    (void)state;
+    as_mol *m = parse_ok("C1CC2CCC1C2"); /* norbornane: 2 rings, 5-membered smallest */
+    assert_int_equal(m->nrings, 2);
+    assert_int_equal(m->atoms[0].ring_size, 5);
+    as_mol_free(m);
+    m = parse_ok("C12C3C4C1C5C2C3C45"); /* cubane: 5 independent rings of 4 */
+    assert_int_equal(m->nrings, 5);
+    for (int r = 0; r < m->nrings; r++)
+        assert_int_equal(m->ring_start[r + 1] - m->ring_start[r], 4);
+    as_mol_free(m);
+    m = parse_ok("CCCC");
+    assert_int_equal(m->nrings, 0);
+    as_mol_free(m);
+}
+
+static void perceive_should_make_kekule_benzene_aromatic(void **state)
+{
+    (void)state;
+    const char *arom[] = {"C1=CC=CC=C1", "c1ccncc1", "c1ccoc1", "c1ccsc1", "c1cc[nH]c1",
+                          "c1ccc2ccccc2c1", "c1ccc2[nH]ccc2c1", "O=c1cccc[nH]1",
+                          "c1ccc2cc3ccccc3cc2c1", "C1=CC=C2C=CC=CC=C12" /* azulene */};
+    for (size_t i = 0; i < sizeof arom / sizeof arom[0]; i++) {
+        as_mol *m = parse_ok(arom[i]);
+        int ring_atoms = 0;
+        for (int k = 0; k < m->natoms; k++)
+            ring_atoms += m->atoms[k].ring_size > 0;
+        if (count_aromatic(m) != ring_atoms)
+            fail_msg("%s: %d of %d ring atoms aromatic", arom[i], count_aromatic(m), ring_atoms);
+        as_mol_free(m);
+    }
+    const char *not_arom[] = {"C1=CC=CC1", "C1=CCC=C1", "O=C1C=CC(=O)C=C1", "C1=CC=CC=CC=C1"};
+    for (size_t i = 0; i < sizeof not_arom / sizeof not_arom[0]; i++) {
+        as_mol *m = parse_ok(not_arom[i]);
+        if (count_aromatic(m) != 0)
+            fail_msg("%s should not be aromatic", not_arom[i]);
+        as_mol_free(m);
+    }
+}
+
+static void perceive_should_drop_stereo_that_cannot_be_real(void **state)
+{
+    (void)state;
+    as_mol *m = parse_ok("C[C@H2]O"); /* two H: no centre */
+    assert_int_equal(m->ntetra, 0);
+    as_mol_free(m);
+    m = parse_ok("F/C1=C/CCC1"); /* ring double bond in a small ring: no E/Z */
+    assert_int_equal(m->ndbs, 0);
+    as_mol_free(m);
+    m = parse_ok("C/C=C/1.C1"); /* acyclic: kept */
+    assert_int_equal(m->ndbs, 1);
+    as_mol_free(m);
+}
+
+static void perceive_should_report_the_failed_pass(void **state)
+{
+    (void)state;
+    as_mol *m = NULL;
+    as_error err;
+    assert_int_equal(as_smiles_read("c1cccc1", 7, NULL, &m, &err), AS_OK);
+    unsigned failed = 0;
+    assert_int_equal(as_perceive(m, AS_PASS_ALL, &failed, &err), AS_ERR_AROMATIC);
+    assert_int_equal(failed, AS_PASS_KEKULE);
+    as_mol_free(m);
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(perceive_should_give_default_valence_hydrogens),
+        cmocka_unit_test(perceive_should_find_sssr_and_ring_sizes),
+        cmocka_unit_test(perceive_should_make_kekule_benzene_aromatic),
+        cmocka_unit_test(perceive_should_drop_stereo_that_cannot_be_real),
+        cmocka_unit_test(perceive_should_report_the_failed_pass),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
