@@ -166,6 +166,17 @@ HAND = [
     ('anthraquinone', 'O=C1c2ccccc2C(=O)c2ccccc21'),
     ('paracyclophanediene', 'C1=CC2=CC=C1C=CC1=CC=C(C=C2)C=C1'),
     ('indolo[2,3-a]carbazole', 'c1ccc2c(c1)[nH]c1ccc3c4ccccc4[nH]c3c12'),
+    # found by a wider run over all of rdkit-data (molecules named by their record there) and
+    # their simplest relatives: bridgehead N stereo, fused rings whose aromaticity depends on the
+    # Kekule form, hypervalent P in a ring
+    ('Troger_base', 'Cc1ccc2c(c1)CN1CN2Cc2cc(C)ccc21'),  # RDKit 2022.09 drops its N stereo
+    ('wehi-WEHI-0059803_stereo', 'CCCC12C[N@@]3CC(C)(C[N@](C1)C3(C)C)C2=O'),
+    ('wehi-WEHI-0009545_stereo', 'CCNC(=S)N/N=C1/C2C[N@@]3CC[N@@](C2)CC1(c1ccccc1)C3'),
+    ('pyrrolo[3,4-b]pyrazine-5,7-dione', 'O=C1NC(=O)c2nccnc21'),
+    ('wehi-WEHI-0041341', 'O=C1c2nccnc2C(=O)N1c1ccc2c(c1)OCO2'),
+    ('wehi-WEHI-0091072', 'O=C(O)c1cccc2c1Oc1nc3ccccc3nc1O2'),
+    ('wehi-WEHI-0064137', 'O=c1nc2n3ccc(-c4ccncc4)cc3ncc-2s1'),
+    ('nci5k-2667_hexachlorocyclotriphosphazene', 'ClP1(Cl)=NP(Cl)(Cl)=NP(Cl)(Cl)=N1'),
     # charges, salts and isotopes
     ('nitrobenzene', 'O=[N+]([O-])c1ccccc1'),
     ('nitromethane', 'C[N+](=O)[O-]'),
