@@ -46,20 +46,6 @@ static void help(FILE *f)
           f);
 }
 
-static int usage_error(const char *msg, const char *arg)
-{
-    fprintf(stderr, "addsite check: %s%s%s\n", msg, arg ? " " : "", arg ? arg : "");
-    fputs("Try 'addsite check --help'.\n", stderr);
-    return 2;
-}
-
-static int parse_number(const char *s, double *v)
-{
-    char *end = NULL;
-    *v = strtod(s, &end);
-    return end && end != s && *end == '\0' && isfinite(*v);
-}
-
 static int has_space(const char *s)
 {
     return strchr(s, ' ') || strchr(s, '\t');
@@ -114,46 +100,46 @@ int as_cli_check(int argc, char **argv)
             return 0;
         } else if (!strcmp(a, "--reagents")) {
             if (!has_val)
-                return usage_error("--reagents needs a value", NULL);
+                return as_cli_usage_error("check", "--reagents needs a value", NULL);
             reagents = argv[++i];
         } else if (!strcmp(a, "--strict-stereo")) {
             opts.strict_stereo = 1;
         } else if (!strcmp(a, "--equiv")) {
-            if (!has_val || !parse_number(argv[i + 1], &opts.predict.equiv) ||
+            if (!has_val || !as_cli_parse_number(argv[i + 1], &opts.predict.equiv) ||
                 opts.predict.equiv <= 0)
-                return usage_error("--equiv needs a positive number", NULL);
+                return as_cli_usage_error("check", "--equiv needs a positive number", NULL);
             i++;
         } else if (!strcmp(a, "--temp")) {
-            if (!has_val || !parse_number(argv[i + 1], &opts.predict.temp_c) ||
+            if (!has_val || !as_cli_parse_number(argv[i + 1], &opts.predict.temp_c) ||
                 opts.predict.temp_c < -273.15)
-                return usage_error("--temp needs a temperature in °C", NULL);
+                return as_cli_usage_error("check", "--temp needs a temperature in °C", NULL);
             i++;
         } else if (!strcmp(a, "--format")) {
             if (!has_val)
-                return usage_error("--format needs text or json", NULL);
+                return as_cli_usage_error("check", "--format needs text or json", NULL);
             format = argv[++i];
             if (strcmp(format, "text") && strcmp(format, "json"))
-                return usage_error("--format must be text or json, not", format);
+                return as_cli_usage_error("check", "--format must be text or json, not", format);
         } else if (!strcmp(a, "--rules")) {
             if (!has_val)
-                return usage_error("--rules needs a directory", NULL);
+                return as_cli_usage_error("check", "--rules needs a directory", NULL);
             rules_dir = argv[++i];
         } else if (a[0] == '-' && a[1] == '-') {
-            return usage_error("unknown option", a);
+            return as_cli_usage_error("check", "unknown option", a);
         } else if (npos < 2) {
             pos[npos++] = a;
         } else {
-            return usage_error("at most two SMILES are taken; extra argument", a);
+            return as_cli_usage_error("check", "at most two SMILES are taken; extra argument", a);
         }
     }
     if (!npos)
-        return usage_error("a reaction SMILES 'SUBSTRATE>>PRODUCT' is required", NULL);
+        return as_cli_usage_error("check", "a reaction SMILES 'SUBSTRATE>>PRODUCT' is required", NULL);
     as_check_input in;
     memset(&in, 0, sizeof in);
     if (npos == 1) {
         in.reaction = pos[0];
         if (!strchr(pos[0], '>'))
-            return usage_error("give 'SUBSTRATE>>PRODUCT' or SUBSTRATE PRODUCT; no '>' in",
+            return as_cli_usage_error("check", "give 'SUBSTRATE>>PRODUCT' or SUBSTRATE PRODUCT; no '>' in",
                                pos[0]);
     } else {
         in.substrate = pos[0];

@@ -34,13 +34,6 @@ static void help(FILE *f)
           f);
 }
 
-static int usage_error(const char *msg, const char *arg)
-{
-    fprintf(stderr, "addsite plan: %s%s%s\n", msg, arg ? " " : "", arg ? arg : "");
-    fputs("Try 'addsite plan --help'.\n", stderr);
-    return 2;
-}
-
 /* A short phrase on the risk of a rearranged skeleton. */
 static void rearrangement(const as_plan_entry *e, char *buf, size_t cap)
 {
@@ -200,32 +193,29 @@ int as_cli_plan(int argc, char **argv)
         } else if (!strcmp(a, "--strict-stereo")) {
             opts.strict_stereo = 1;
         } else if (!strcmp(a, "--temp")) {
-            char *end = NULL;
-            if (!has_val)
-                return usage_error("--temp needs a temperature in °C", NULL);
-            opts.predict.temp_c = strtod(argv[++i], &end);
-            if (!end || *end || !isfinite(opts.predict.temp_c) || opts.predict.temp_c < -273.15)
-                return usage_error("--temp needs a temperature in °C", NULL);
+            if (!has_val || !as_cli_parse_number(argv[++i], &opts.predict.temp_c) ||
+                opts.predict.temp_c < -273.15)
+                return as_cli_usage_error("plan", "--temp needs a temperature in °C", NULL);
         } else if (!strcmp(a, "--format")) {
             if (!has_val)
-                return usage_error("--format needs text or json", NULL);
+                return as_cli_usage_error("plan", "--format needs text or json", NULL);
             format = argv[++i];
             if (strcmp(format, "text") && strcmp(format, "json"))
-                return usage_error("--format must be text or json, not", format);
+                return as_cli_usage_error("plan", "--format must be text or json, not", format);
         } else if (!strcmp(a, "--rules")) {
             if (!has_val)
-                return usage_error("--rules needs a directory", NULL);
+                return as_cli_usage_error("plan", "--rules needs a directory", NULL);
             rules_dir = argv[++i];
         } else if (a[0] == '-' && a[1] == '-') {
-            return usage_error("unknown option", a);
+            return as_cli_usage_error("plan", "unknown option", a);
         } else if (npos < 2) {
             pos[npos++] = a;
         } else {
-            return usage_error("give SUBSTRATE and TARGET only; extra argument", a);
+            return as_cli_usage_error("plan", "give SUBSTRATE and TARGET only; extra argument", a);
         }
     }
     if (npos != 2)
-        return usage_error("a substrate SMILES and a target SMILES are required", NULL);
+        return as_cli_usage_error("plan", "a substrate SMILES and a target SMILES are required", NULL);
     as_error err;
     as_error_clear(&err);
     as_rules *rules = NULL;

@@ -611,6 +611,12 @@ static int rationale_sites(as_outcome *o)
                       "the other C=C is kept.",
                    o->equiv, s0->end[0].atom + 1, s0->end[1].atom + 1, site_key(s0, o->rule, o->variant),
                    site_key(sr, o->rule, o->variant), sr->end[0].atom + 1, sr->end[1].atom + 1);
+    if (fabs(site_key(s0, o->rule, o->variant) - site_key(sr, o->rule, o->variant)) < 1.0)
+        return say(o, "With %.0f equivalent(s) C%d=C%d is taken first, but C%d=C%d scores the "
+                      "same (summed cation hydride affinities %.0f kcal/mol each): expect both "
+                      "to react, not a selective reaction at one C=C.",
+                   o->equiv, s0->end[0].atom + 1, s0->end[1].atom + 1, sr->end[0].atom + 1,
+                   sr->end[1].atom + 1, site_key(s0, o->rule, o->variant));
     return say(o, "With %.0f equivalent(s) C%d=C%d reacts first: it is the more electron-rich "
                   "(summed cation hydride affinities of its ends %.0f against %.0f kcal/mol at "
                   "C%d=C%d; more substituted alkenes react faster with electrophiles); the "

@@ -45,6 +45,10 @@ static const double hia_by_degree[4] = {312.0, 273.0, 246.0, 231.0};
 #define HIA_ALPHA_NO2 (30.0)   /* α-NO2 (estimate) */
 #define HIA_ALPHA_SO2 (25.0)   /* α-SO2R (estimate) */
 #define HIA_BETA_X (6.0)       /* halogen on a neighbouring sp3 carbon: inductive (estimate) */
+#define HIA_BETA_O (3.0)       /* OH/OR on a neighbouring sp3 carbon (allylic alcohols and
+                                  ethers): inductive, scaled from HIA_BETA_X by the inductive
+                                  constants sigma_I of OH (~0.25) and Cl (~0.47) (estimate;
+                                  sigma_I values from memory) */
 
 /* Brown–Okamoto: log(k/k0) = ρσ+ with ρ = −4.54 for cumyl chloride solvolysis in 90%
  * aqueous acetone at 25 °C (Brown & Okamoto, J. Am. Chem. Soc. 1958, 80, 4979; ρ from
@@ -179,6 +183,16 @@ static int classify_nbr(const as_mol *m, int c, int x, int sat)
     }
 }
 
+/* 1 when sp3 carbon x carries a singly bonded oxygen (OH, OR, OC(=O)R). */
+static int carries_oxygen(const as_mol *m, int x)
+{
+    for (int i = 0; i < m->atoms[x].degree; i++)
+        if (m->atoms[m->atoms[x].nbr[i]].elem == 8 &&
+            m->bonds[m->atoms[x].nbond[i]].order == AS_BOND_SINGLE)
+            return 1;
+    return 0;
+}
+
 /* 1 when sp3 carbon x carries Cl, Br or I. */
 static int carries_heavy_halogen(const as_mol *m, int x)
 {
@@ -310,6 +324,8 @@ double as_sites_cation_hia(const as_mol *m, int center, int ignore, int sat,
             ncarb++;
             if (carries_heavy_halogen(m, x))
                 corr += HIA_BETA_X;
+            else if (carries_oxygen(m, x))
+                corr += HIA_BETA_O;
             break;
         case NB_ARYL: {
             char note[48] = "";
