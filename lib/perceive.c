@@ -817,6 +817,23 @@ static as_status pass_stereo(as_mol *m, as_error *err)
     return AS_OK;
 }
 
+/* ---------------------------------------------------------------- warnings */
+
+int as_perceive_suspect_atom(const as_mol *m)
+{
+    for (int i = 0; i < m->natoms; i++) {
+        const as_atom *a = &m->atoms[i];
+        if (a->elem != 7 || a->charge != 0 || a->bracket || a->aromatic || a->degree != 4)
+            continue;
+        int single = 1;
+        for (int k = 0; k < a->degree; k++)
+            single &= m->bonds[a->nbond[k]].order == AS_BOND_SINGLE;
+        if (single)
+            return i;
+    }
+    return -1;
+}
+
 /* ---------------------------------------------------------------- driver */
 
 as_status as_perceive(as_mol *m, unsigned passes, unsigned *failed_pass, as_error *err)
