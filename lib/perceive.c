@@ -599,7 +599,8 @@ static int find_root(int *parent, int x)
 static int pi_electrons(const as_mol *m, int i, const int *sys)
 {
     const as_atom *a = &m->atoms[i];
-    if (sys[i] < 0 || a->degree + a->total_h > 3)
+    /* '*' never joins an aromatic ring: the reader cannot kekulise an aromatic '*' */
+    if (sys[i] < 0 || a->elem == 0 || a->degree + a->total_h > 3)
         return -1;
     int dbl_in = 0, dbl_exo = -1, sum = 0;
     for (int k = 0; k < a->degree; k++) {
