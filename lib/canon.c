@@ -737,6 +737,16 @@ static int written_chirality(const writer *w, int a)
     int odd = odd_perm(t->nbr, out);
     if (odd < 0)
         return 0;
+    if (has_h && m->atoms[a].total_h == 0 && m->atoms[a].degree == 3) {
+        /* lone-pair centre with one ring-closure digit and only single bonds: the extra swap
+         * of the reading convention (see smiles_read.c, lone_pair_flip) */
+        int rbs[AS_MAX_DEGREE], single = 1;
+        int nr = ring_bonds_at(w, a, rbs);
+        for (int k = 0; k < m->atoms[a].degree; k++)
+            single &= m->bonds[m->atoms[a].nbond[k]].order == AS_BOND_SINGLE;
+        if (nr == 1 && single)
+            odd ^= 1;
+    }
     return odd ? (t->parity == AS_CCW ? AS_CW : AS_CCW) : t->parity;
 }
 
