@@ -141,7 +141,7 @@ static void sort_by_key(int *v, int n, const int *key, int *tmp)
  * O(m log n), not one full pass per bond of the chain. Fragments are ordered by their
  * neighbour counts, so the result depends only on the input partition, never on atom
  * numbering. */
-static void refine(canon_ctx *c, int *rank)
+static void refine(canon_ctx *c, int *rank, int seed)
 {
     const as_mol *m = c->m;
     int n = c->n;
@@ -166,9 +166,20 @@ static void refine(canon_ctx *c, int *rank)
     memset(tcount, 0, (size_t)n * sizeof(int));
     memset(inq, 0, (size_t)n * sizeof(int));
     int qhead = 0, qlen = 0;
-    for (int s = 0; s < n; s += cell_len[s]) {
-        queue[qlen++] = s; /* qhead is 0 here */
-        inq[s] = 1;
+    if (seed < 0) {
+        for (int s = 0; s < n; s += cell_len[s]) {
+            queue[qlen++] = s; /* qhead is 0 here */
+            inq[s] = 1;
+        }
+    } else {
+        /* the partition was equitable before one atom of cell `seed` was set apart: only
+         * the singleton and the rest of its old cell can split anything now */
+        queue[qlen++] = seed;
+        inq[seed] = 1;
+        if (seed + 1 < n && !inq[seed + 1] && cell_len[seed] == 1) {
+            queue[qlen++] = seed + 1;
+            inq[seed + 1] = 1;
+        }
     }
     while (qlen) {
         int w = queue[qhead];
@@ -505,7 +516,7 @@ static void stereo_refine(canon_ctx *c)
         rank_by_keys(c, keys, rank);
         free(keys);
         int before = 0, after = 0;
-        refine(c, rank);
+        refine(c, rank, -1);
         /* count classes to see whether anything split */
         char *seen = calloc((size_t)(n ? n : 1), 1);
         if (!seen) {
@@ -1129,7 +1140,9 @@ static int ring_bond_count(const as_mol *m, int a)
 
 /* Breaks the ties of rank (refined first, unless `refined` says it is already equitable:
  * refining an equitable partition changes nothing). */
-static void explore(canon_ctx *c, int *rank, int refined)
+/* seed: -2 when rank is already equitable, -1 to refine from scratch, else the start of the
+ * cell just split by setting one atom apart (only that split is propagated). */
+static void explore(canon_ctx *c, int *rank, int seed)
 {
     int n = c->n;
     int *work = malloc((size_t)(n ? n : 1) * sizeof(int));
@@ -1141,9 +1154,8 @@ static void explore(canon_ctx *c, int *rank, int refined)
         return;
     }
     for (;;) {
-        if (!refined)
-            refine(c, rank);
-        refined = 0;
+        if (seed != -2)
+            refine(c, rank, seed);
         memset(cnt, 0, (size_t)n * sizeof(int));
         for (int i = 0; i < n; i++)
             cnt[rank[i]]++;
@@ -1195,7 +1207,7 @@ static void explore(canon_ctx *c, int *rank, int refined)
                 for (int j = 0; j < n; j++)
                     if (work[j] == r && j != i)
                         work[j] = r + 1;
-                explore(c, work, 0);
+                explore(c, work, r);
                 if (c->st != AS_OK)
                     break;
             }
@@ -1204,6 +1216,7 @@ static void explore(canon_ctx *c, int *rank, int refined)
         for (int j = 0; j < n; j++)
             if (rank[j] == r && j != first)
                 rank[j] = r + 1;
+        seed = r;
     }
     free(work);
     free(cnt);
@@ -1266,7 +1279,7 @@ static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
     initial_ranks(c, c->cls);
     if (c->st != AS_OK)
         return c->st;
-    refine(c, c->cls);
+    refine(c, c->cls, -1);
     return AS_OK;
 }
 
@@ -1393,7 +1406,7 @@ as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out
     if (st == AS_OK) {
         /* c.cls is equitable: it comes from refine() in ctx_init or in stereo_refine */
         memcpy(rank, c.cls, (size_t)m->natoms * sizeof(int));
-        explore(&c, rank, 1);
+        explore(&c, rank, -2);
         st = c.st;
     }
     if (st == AS_OK && c.best) {
