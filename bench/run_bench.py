@@ -10,6 +10,7 @@ import argparse
 import os
 import subprocess
 import sys
+import tempfile
 import time
 
 HERE = os.path.dirname(os.path.abspath(__file__))
@@ -26,14 +27,28 @@ def corpus(work, n):
 
 
 def run(cmd, stdin_path):
-    """Runs cmd with stdin from a file and stdout discarded; returns (seconds, peak RSS kB,
-    exit status)."""
+    """Runs cmd with stdin from a file and stdout discarded; returns (seconds, peak RSS kB or
+    None, exit status). Peak RSS comes from GNU time (Debian package `time`) when installed:
+    a child's own ru_maxrss would also count the Python interpreter it was forked from."""
+    gnu_time = '/usr/bin/time' if os.access('/usr/bin/time', os.X_OK) else None
+    rss_file = None
+    if gnu_time:
+        fd, rss_file = tempfile.mkstemp(prefix='as-bench-', suffix='.rss')
+        os.close(fd)
+        cmd = [gnu_time, '-f', '%M', '-o', rss_file] + cmd
     with open(stdin_path, 'rb') as fin, open(os.devnull, 'wb') as fout:
         t0 = time.perf_counter()
-        p = subprocess.Popen(cmd, stdin=fin, stdout=fout, stderr=subprocess.DEVNULL)
-        _, status, usage = os.wait4(p.pid, 0)
+        p = subprocess.run(cmd, stdin=fin, stdout=fout, stderr=subprocess.DEVNULL)
         dt = time.perf_counter() - t0
-    return dt, usage.ru_maxrss, os.waitstatus_to_exitcode(status)
+    rss = None
+    if rss_file:
+        try:
+            with open(rss_file) as f:
+                rss = int(f.read().strip().splitlines()[-1])
+        except (OSError, ValueError, IndexError):
+            rss = None
+        os.unlink(rss_file)
+    return dt, rss, p.returncode
 
 
 def main():
@@ -45,7 +60,9 @@ def main():
                     help='also run the RDKit baseline on this many records (0: skip)')
     a = ap.parse_args()
     os.makedirs(a.work, exist_ok=True)
-    print('machine: %s, %d cores' % (os.uname().machine, os.cpu_count() or 0))
+    print('machine: %s, %d cores%s' % (os.uname().machine, os.cpu_count() or 0,
+                                        '' if os.access('/usr/bin/time', os.X_OK) else
+                                        ' (install the Debian package time for peak RSS)'))
     print('%10s %4s %10s %12s %10s %9s' % ('records', '-j', 'seconds', 'records/s', 'us/record',
                                             'peak MB'))
     results = {}
@@ -58,8 +75,8 @@ def main():
                 print('annotate failed with exit status %d' % rc)
                 return 1
             results[(n, j)] = n / dt
-            print('%10d %4d %10.2f %12.0f %10.2f %9.1f' % (n, j, dt, n / dt, dt / n * 1e6,
-                                                        rss / 1024.0))
+            print('%10d %4d %10.2f %12.0f %10.2f %9s' % (n, j, dt, n / dt, dt / n * 1e6,
+                                                      '%.1f' % (rss / 1024.0) if rss else 'n/a'))
     for n in [int(x) for x in a.sizes.split(',')]:
         if (n, 1) in results and (n, 2) in results:
             print('speed-up -j 2 over -j 1 at %d records: %.2fx' %
@@ -71,8 +88,7 @@ def main():
             print('RDKit baseline failed (exit %d); is python3-rdkit installed?' % rc)
             return 1
         rate = a.rdkit / dt
-        print('RDKit baseline: %d records in %.2f s = %.0f records/s (peak %.1f MB)' %
-              (a.rdkit, dt, rate, rss / 1024.0))
+        print('RDKit baseline: %d records in %.2f s = %.0f records/s' % (a.rdkit, dt, rate))
         ours = results.get((a.rdkit, 1))
         if ours:
             print('addsite -j 1 / RDKit baseline: %.1fx' % (ours / rate))
