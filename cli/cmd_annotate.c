@@ -698,6 +698,9 @@ typedef struct pipeline {
     pthread_cond_t space;    /* a slot was freed (reader waits) */
     pthread_cond_t filled;   /* a slot was filled or input ended (workers wait) */
     pthread_cond_t done;     /* a slot was annotated or input ended (writer waits) */
+    int idle_workers;        /* workers waiting on `filled` */
+    int reader_waiting;      /* the reader waits on `space` */
+    int writer_waiting;      /* the writer waits on `done` for the slot at `tail` */
 } pipeline;
 
 static void *reader_main(void *arg)
@@ -709,8 +712,13 @@ static void *reader_main(void *arg)
         as_error_clear(&err);
         as_status st = as_reader_next(p->reader, &rec, &err);
         pthread_mutex_lock(&p->mu);
-        while (!p->stop && p->head - p->tail >= p->cap)
-            pthread_cond_wait(&p->space, &p->mu);
+        if (!p->stop && p->head - p->tail >= p->cap) {
+            /* full: sleep until half the ring is free, so wake-ups come in batches */
+            p->reader_waiting = 1;
+            while (!p->stop && p->head - p->tail > p->cap / 2)
+                pthread_cond_wait(&p->space, &p->mu);
+            p->reader_waiting = 0;
+        }
         if (p->stop || st != AS_OK || rec.at_end) {
             if (st != AS_OK) {
                 p->fatal = 1;
@@ -739,7 +747,8 @@ static void *reader_main(void *arg)
             return NULL;
         }
         p->head++;
-        pthread_cond_signal(&p->filled);
+        if (p->idle_workers)
+            pthread_cond_signal(&p->filled);
         pthread_mutex_unlock(&p->mu);
     }
 }
@@ -751,8 +760,11 @@ static void *worker_main(void *arg)
     memo *m = p->cfg->memo ? memo_new() : NULL;
     pthread_mutex_lock(&p->mu);
     for (;;) {
-        while (!p->stop && p->work == p->head && !p->eof)
+        while (!p->stop && p->work == p->head && !p->eof) {
+            p->idle_workers++;
             pthread_cond_wait(&p->filled, &p->mu);
+            p->idle_workers--;
+        }
         if (p->stop || p->work == p->head) {
             pthread_mutex_unlock(&p->mu);
             as_check_cache_free(cache);
@@ -766,7 +778,9 @@ static void *worker_main(void *arg)
         annotate_memo(p->cfg, cache, m, s);
         pthread_mutex_lock(&p->mu);
         s->state = 3;
-        pthread_cond_signal(&p->done);
+        /* the writer only ever waits for the slot at tail */
+        if (p->writer_waiting && s == &p->ring[p->tail % p->cap])
+            pthread_cond_signal(&p->done);
     }
 }
 
@@ -873,8 +887,11 @@ static int run_threads(run_state *rs, as_reader *r, int nworkers, as_error *rerr
     pthread_mutex_lock(&p.mu);
     while (rc == 0) {
         slot *s = &p.ring[p.tail % p.cap];
-        while (!(p.tail < p.head && s->state == 3) && !(p.eof && p.tail == p.head))
+        while (!(p.tail < p.head && s->state == 3) && !(p.eof && p.tail == p.head)) {
+            p.writer_waiting = 1;
             pthread_cond_wait(&p.done, &p.mu);
+            p.writer_waiting = 0;
+        }
         if (p.tail == p.head && p.eof)
             break;
         pthread_mutex_unlock(&p.mu);
@@ -882,7 +899,8 @@ static int run_threads(run_state *rs, as_reader *r, int nworkers, as_error *rerr
         slot_clear(s);
         pthread_mutex_lock(&p.mu);
         p.tail++;
-        pthread_cond_signal(&p.space);
+        if (p.reader_waiting && p.head - p.tail <= p.cap / 2)
+            pthread_cond_signal(&p.space);
         if (stop) {
             p.stop = 1;
             pthread_cond_broadcast(&p.space);
