@@ -584,6 +584,10 @@ static int pi_electrons(const as_mol *m, int i, const char *inring, const char *
 {
     const as_atom *a = &m->atoms[i];
     int dbl_in = 0, dbl_exo = -1, sum = 0, triple = 0;
+    /* '*' never joins an aromatic ring: the reader cannot kekulise an aromatic '*', so a ring
+     * through one must stay Kekulé or its SMILES would not read back (found by fuzz_smiles). */
+    if (a->elem == 0)
+        return -1;
     for (int k = 0; k < a->degree; k++) {
         const as_bond *b = &m->bonds[a->nbond[k]];
         sum += b->order;
