@@ -12,11 +12,20 @@
 int as_cli_canon(int argc, char **argv);
 int as_cli_predict(int argc, char **argv);
 int as_cli_rules(int argc, char **argv);
+int as_cli_check(int argc, char **argv);
+int as_cli_plan(int argc, char **argv);
+int as_cli_annotate(int argc, char **argv);
 
 /* Prints "addsite <cmd>: line L, column C: <code>: <message>" and, when text is given, the
  * text and a caret under err->offset (columns are 1-based: column = offset + 1). */
 void as_cli_print_error(FILE *f, const char *cmd, long line, const char *text, size_t len,
                         const as_error *err);
+
+/* Prints "addsite CMD: MSG [ARG]" and a pointer to --help on stderr; returns 2 (usage). */
+int as_cli_usage_error(const char *cmd, const char *msg, const char *arg);
+
+/* Parses a whole string as a finite number; returns 1 on success. */
+int as_cli_parse_number(const char *s, double *v);
 
 /* The closing line of every human-readable report that mentions reagents. */
 extern const char as_cli_safety_footer[];

@@ -1,6 +1,7 @@
 /* cmd_canon.c — `addsite canon`: canonical SMILES, one output line per input line.
  * Owns: the canon subcommand's arguments and streaming. Must not: hold chemistry. */
 #include "addsite/canon.h"
+#include "addsite/perceive.h"
 #include "addsite/smiles.h"
 #include "cli.h"
 
@@ -87,6 +88,13 @@ static int one(const char *text, size_t len, long line, const as_canon_opts *o)
         as_mol_free(m);
         return 1;
     }
+    int suspect = as_perceive_suspect_atom(m);
+    if (suspect >= 0)
+        fprintf(stderr,
+                "addsite canon: line %ld, column %d: warning: atom %d (N) has four single bonds "
+                "and no charge; read as N with valence 5 and one H (probably a missing charge: "
+                "[N+])\n",
+                line, m->atoms[suspect].src_offset + 1, suspect + 1);
     fputs(s, stdout);
     if (m->title)
         printf("\t%s", m->title);

@@ -36,20 +36,6 @@ static void help(FILE *f)
           f);
 }
 
-static int usage_error(const char *msg, const char *arg)
-{
-    fprintf(stderr, "addsite predict: %s%s%s\n", msg, arg ? " " : "", arg ? arg : "");
-    fputs("Try 'addsite predict --help'.\n", stderr);
-    return 2;
-}
-
-static int parse_number(const char *s, double *v)
-{
-    char *end = NULL;
-    *v = strtod(s, &end);
-    return end && end != s && *end == '\0' && isfinite(*v);
-}
-
 /* Word-wraps text at about width columns with the given indent for following lines. */
 static void wrap(FILE *f, const char *text, int first_col, int indent, int width)
 {
@@ -126,42 +112,42 @@ int as_cli_predict(int argc, char **argv)
         int has_val = i + 1 < argc;
         if (!strcmp(a, "--reagents")) {
             if (!has_val)
-                return usage_error("--reagents needs a value", NULL);
+                return as_cli_usage_error("predict", "--reagents needs a value", NULL);
             reagents = argv[++i];
         } else if (!strcmp(a, "--reaction")) {
             if (!has_val)
-                return usage_error("--reaction needs a value", NULL);
+                return as_cli_usage_error("predict", "--reaction needs a value", NULL);
             reaction = argv[++i];
         } else if (!strcmp(a, "--equiv")) {
-            if (!has_val || !parse_number(argv[i + 1], &opts.equiv) || opts.equiv <= 0)
-                return usage_error("--equiv needs a positive number", NULL);
+            if (!has_val || !as_cli_parse_number(argv[i + 1], &opts.equiv) || opts.equiv <= 0)
+                return as_cli_usage_error("predict", "--equiv needs a positive number", NULL);
             i++;
         } else if (!strcmp(a, "--temp")) {
-            if (!has_val || !parse_number(argv[i + 1], &opts.temp_c) || opts.temp_c < -273.15)
-                return usage_error("--temp needs a temperature in °C", NULL);
+            if (!has_val || !as_cli_parse_number(argv[i + 1], &opts.temp_c) || opts.temp_c < -273.15)
+                return as_cli_usage_error("predict", "--temp needs a temperature in °C", NULL);
             i++;
         } else if (!strcmp(a, "--format")) {
             if (!has_val)
-                return usage_error("--format needs text or json", NULL);
+                return as_cli_usage_error("predict", "--format needs text or json", NULL);
             format = argv[++i];
             if (strcmp(format, "text") && strcmp(format, "json"))
-                return usage_error("--format must be text or json, not", format);
+                return as_cli_usage_error("predict", "--format must be text or json, not", format);
         } else if (!strcmp(a, "--rules")) {
             if (!has_val)
-                return usage_error("--rules needs a directory", NULL);
+                return as_cli_usage_error("predict", "--rules needs a directory", NULL);
             rules_dir = argv[++i];
         } else if (a[0] == '-' && a[1] == '-') {
-            return usage_error("unknown option", a);
+            return as_cli_usage_error("predict", "unknown option", a);
         } else if (!smiles) {
             smiles = a;
         } else {
-            return usage_error("only one SMILES is taken; extra argument", a);
+            return as_cli_usage_error("predict", "only one SMILES is taken; extra argument", a);
         }
     }
     if (!smiles)
-        return usage_error("a substrate SMILES is required", NULL);
+        return as_cli_usage_error("predict", "a substrate SMILES is required", NULL);
     if (!!reagents == !!reaction)
-        return usage_error("give exactly one of --reagents TEXT or --reaction ID", NULL);
+        return as_cli_usage_error("predict", "give exactly one of --reagents TEXT or --reaction ID", NULL);
 
     as_error err;
     as_error_clear(&err);

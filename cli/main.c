@@ -3,7 +3,9 @@
 #include "cli.h"
 
 #include <errno.h>
+#include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 const char as_cli_safety_footer[] =
@@ -20,6 +22,9 @@ static const command commands[] = {
     {"canon", as_cli_canon, "write canonical SMILES, one line per input line"},
     {"predict", as_cli_predict, "predict the products of one substrate and reagent set"},
     {"rules", as_cli_rules, "list the reaction rule table"},
+    {"check", as_cli_check, "judge a recorded product against the prediction"},
+    {"plan", as_cli_plan, "rank the reagent sets that give a wanted product"},
+    {"annotate", as_cli_annotate, "annotate a reaction file, one output record per input"},
 };
 
 static void usage(FILE *f)
@@ -29,6 +34,20 @@ static void usage(FILE *f)
     for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
         fprintf(f, "  %-10s %s\n", commands[i].name, commands[i].summary);
     fprintf(f, "\n'addsite help COMMAND' or 'addsite COMMAND --help' describes one command.\n");
+}
+
+int as_cli_usage_error(const char *cmd, const char *msg, const char *arg)
+{
+    fprintf(stderr, "addsite %s: %s%s%s\n", cmd, msg, arg ? " " : "", arg ? arg : "");
+    fprintf(stderr, "Try 'addsite %s --help'.\n", cmd);
+    return 2;
+}
+
+int as_cli_parse_number(const char *s, double *v)
+{
+    char *end = NULL;
+    *v = strtod(s, &end);
+    return end && end != s && *end == '\0' && isfinite(*v);
 }
 
 void as_cli_print_error(FILE *f, const char *cmd, long line, const char *text, size_t len,

@@ -152,7 +152,8 @@ static as_status group_read(const as_rule *r, const char *what, const char *smi,
                             what);
     }
     g->present = 1;
-    if (g->frag->natoms == 1 && g->frag->atoms[0].elem == 1 && g->frag->atoms[0].charge == 0) {
+    if (g->frag->natoms == 1 && g->frag->atoms[0].elem == 1 && g->frag->atoms[0].charge == 0 &&
+        g->frag->atoms[0].isotope < 0) { /* [2H] stays an atom */
         g->is_h = 1;
         as_mol_free(g->frag);
         g->frag = NULL;
@@ -434,6 +435,187 @@ static int stereo_records(const as_mol *sub, const as_site *s, int c1, int c2, i
     return n;
 }
 
+/* ---------------------------------------------------------------- facial control */
+
+/* Exo attack on a norbornene-type C=C (site face AS_FACE_EXO, rule facial "exo").
+ *
+ * The model extends the xy-plane picture above: the bridgeheads P (on C1) and Q (on C2) lie
+ * in the plane of the C=C, as in the real molecule (C1-C2=C3-C4 of norbornene is nearly
+ * planar); the one-carbon bridge M sits above the middle (+z), the first atoms of the
+ * two-carbon bridge below (-z), and each bridgehead's fourth substituent points outwards
+ * in the plane. The exo face is the face syn to M, so every group arrives from +z. Only the
+ * signs of the signed volumes matter, so rough positions suffice. The check against a
+ * 3-D embedding (RDKit ETKDG) is tests/check_stereo_cip.py. */
+static const v3 FX_M = {0.5, 1.6, 0.9};
+static const v3 FX_LONG[2] = {{-0.4, 1.9, -0.9}, {1.4, 1.9, -0.9}};
+static const v3 FX_OUT[2] = {{-1.5, 0.37, 0.0}, {2.5, 0.37, 0.0}};
+static const v3 FX_HEAD[2] = {{-0.5, 0.87, 0.0}, {1.5, 0.87, 0.0}};
+
+/* 1 when the rule's exo preference applies to site s. */
+static int exo_applies(const as_site *s, const as_rule *r)
+{
+    return s->face == AS_FACE_EXO && r->facial && strcmp(r->facial, "exo") == 0 &&
+           r->regio != AS_REGIO_CLEAVE;
+}
+
+/* Parity of record t re-expressed for the neighbour order `order` (a permutation of
+ * t->nbr), or 0 when the two lists do not hold the same neighbours. */
+static int parity_for_order(const as_tetra *t, const int order[4])
+{
+    int idx[4];
+    for (int i = 0; i < 4; i++) {
+        idx[i] = -1;
+        for (int j = 0; j < 4; j++)
+            if (t->nbr[j] == order[i])
+                idx[i] = j;
+        if (idx[i] < 0)
+            return 0;
+    }
+    int swaps = 0;
+    for (int i = 0; i < 4; i++)
+        for (int j = i + 1; j < 4; j++)
+            if (idx[i] > idx[j])
+                swaps++;
+    if (swaps % 2 == 0)
+        return t->parity;
+    return t->parity == AS_CCW ? AS_CW : AS_CCW;
+}
+
+/* The neighbour of bridgehead h that is none of a, b, c (or AS_IMPLICIT_H). */
+static int fourth_nbr(const as_mol *m, int h, int a, int b, int c)
+{
+    for (int i = 0; i < m->atoms[h].degree; i++) {
+        int n = m->atoms[h].nbr[i];
+        if (n != a && n != b && n != c)
+            return n;
+    }
+    return AS_IMPLICIT_H;
+}
+
+static void record_at(as_tetra *t, int centre, const int nb[4], const v3 pos[4])
+{
+    t->center = centre;
+    memcpy(t->nbr, nb, 4 * sizeof nb[0]);
+    t->parity = orient(pos[0], pos[1], pos[2], pos[3]) < 0 ? AS_CCW : AS_CW;
+}
+
+/* Records for C1, C2 (groups x, y from the exo face) and for both bridgeheads, written into
+ * rec[]; returns how many. *anchor receives 1 when the substrate already fixed a bridgehead
+ * configuration (the model was mirrored to match it where needed), 0 when it did not, -1
+ * when a substrate record could not be related to the model. */
+static int exo_records(const as_mol *sub, const as_site *s, int c1, int x, int y,
+                       as_tetra rec[4], int *anchor)
+{
+    /* The frame is fixed by the site (end[0] at the origin, end[1] at +x) whichever end
+     * takes `first`: both orientations of one substrate must share one embedding, or the
+     * two would be drawn in mirror-image frames. */
+    int c[2] = {s->end[0].atom, s->end[1].atom};
+    int grp[2] = {c[0] == c1 ? x : y, c[0] == c1 ? y : x};
+    const v3 pc[2] = {{0, 0, 0}, {1, 0, 0}};
+    const v3 pdown[2] = {{-0.5, -0.87, 0}, {1.5, -0.87, 0}};
+    const v3 pgrp[2] = {{0, 0, 1}, {1, 0, 1}};
+    int n = 0;
+    for (int e = 0; e < 2; e++) {
+        int sl[2];
+        if (slots_of(sub, c[e], c[1 - e], sl) != 2)
+            continue;
+        int other = sl[0] == s->bridgehead[e] ? sl[1] : sl[0];
+        if (grp[e] == AS_IMPLICIT_H && other == AS_IMPLICIT_H)
+            continue; /* CH2: not a centre */
+        int nb[4] = {c[1 - e], s->bridgehead[e], other, grp[e]};
+        v3 pos[4] = {pc[1 - e], FX_HEAD[e], pdown[e], pgrp[e]};
+        record_at(&rec[n++], c[e], nb, pos);
+    }
+    *anchor = 0;
+    int mirror = 0;
+    for (int e = 0; e < 2; e++) {
+        int h = s->bridgehead[e];
+        int nb[4] = {c[e], s->short_bridge[e], s->long_bridge[e],
+                     fourth_nbr(sub, h, c[e], s->short_bridge[e], s->long_bridge[e])};
+        v3 pos[4] = {pc[e], FX_M, FX_LONG[e], FX_OUT[e]};
+        as_tetra t;
+        record_at(&t, h, nb, pos);
+        int d = as_mol_find_tetra(sub, h);
+        if (d >= 0) {
+            int theirs = parity_for_order(&sub->tetra[d], nb);
+            if (!theirs) {
+                *anchor = -1;
+            } else if (*anchor == 0) {
+                *anchor = 1;
+                mirror = theirs != t.parity;
+            }
+        }
+        rec[n++] = t;
+    }
+    if (mirror)
+        for (int i = 0; i < n; i++)
+            rec[i].parity = rec[i].parity == AS_CCW ? AS_CW : AS_CCW;
+    return n;
+}
+
+/* Stereo of an exo adduct: places the records of rec[] on every atom of cand[] that is a
+ * stereocentre of the product without a record, and labels the product. */
+static as_status finish_exo(as_adduct *ad, const as_mol *sub, const int cand[4],
+                            const as_tetra *rec, int nrec, int anchor, as_error *err)
+{
+    as_mol *p = ad->mol;
+    int *cls = malloc((size_t)p->natoms * sizeof(int));
+    if (!cls)
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    as_status st = as_canon_classes(p, cls, err);
+    if (st != AS_OK) {
+        free(cls);
+        return st;
+    }
+    for (int i = p->ntetra - 1; i >= 0; i--)
+        if (p->atoms[p->tetra[i].center].elem == 6 && !is_centre(p, cls, p->tetra[i].center))
+            p->tetra[i] = p->tetra[--p->ntetra];
+    int k = 0, other = 0;
+    for (int i = 0; i < 4; i++) {
+        if (cand[i] < 0 || !is_centre(p, cls, cand[i]) || as_mol_find_tetra(p, cand[i]) >= 0)
+            continue;
+        for (int j = 0; j < nrec; j++) {
+            if (rec[j].center != cand[i])
+                continue;
+            if (as_mol_add_tetra(p, &rec[j]) < 0) {
+                free(cls);
+                return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+            }
+            k++;
+        }
+    }
+    for (int i = 0; i < p->natoms && !other; i++) {
+        int mine = 0;
+        for (int j = 0; j < 4; j++)
+            mine |= cand[j] == i;
+        if (!mine && (as_mol_find_tetra(p, i) >= 0 || is_centre(p, cls, i)))
+            other = 1;
+    }
+    free(cls);
+    ad->new_centres = k;
+    ad->exo = 1;
+    if (k == 0) {
+        ad->stereo = p->ntetra > 0 ? AS_STEREO_SINGLE : AS_STEREO_NONE;
+        return AS_OK;
+    }
+    ad->marked = 1;
+    if (other || anchor < 0) {
+        ad->stereo = AS_STEREO_DIASTEREOMERS;
+        return AS_OK;
+    }
+    if (anchor > 0 || sub->ntetra > 0) {
+        ad->stereo = AS_STEREO_SINGLE;
+        return AS_OK;
+    }
+    int achiral = 0;
+    st = is_achiral(p, &achiral, err);
+    if (st != AS_OK)
+        return st;
+    ad->meso = achiral;
+    ad->stereo = achiral ? AS_STEREO_MESO : AS_STEREO_RACEMIC;
+    return AS_OK;
+}
+
 /* ---------------------------------------------------------------- placing */
 
 static as_status cleave(as_mol *p, const as_site *s, const as_rule_variant *v, as_error *err)
@@ -535,6 +717,13 @@ static as_status place(const as_mol *sub, const as_sites *sites, int site, int f
     st = perceive_product(p, rule, err);
     if (st != AS_OK)
         return st;
+    if (exo_applies(s, rule)) {
+        as_tetra xrec[4];
+        int anchor = 0;
+        int nx = exo_records(sub, s, c1, x, y, xrec, &anchor);
+        int xcand[4] = {c1, c2, s->bridgehead[0], s->bridgehead[1]};
+        return finish_exo(out, sub, xcand, xrec, nx, anchor, err);
+    }
     as_tetra rec[2];
     int nrec = stereo_records(sub, s, c1, c2, x, y, mode, rec);
     int cand[2] = {c1, c2};
@@ -561,9 +750,13 @@ as_status as_addition_place(const as_mol *sub, const as_sites *sites, int site, 
 
 /* ---------------------------------------------------------------- shifts */
 
-/* Best 1,2-shift for the cation on carbon e (partner q took the electrophile): sets *to (the
- * carbon the cation moves to), *migrant (-1 for H) and returns the HIA gained, or 0. */
-static double best_shift(const as_mol *m, int e, int q, int *to, int *migrant)
+/* Best 1,2-shift for the cation on carbon e (partner q took the electrophile) at site s:
+ * sets *to (the carbon the cation moves to), *migrant (-1 for H) and returns the HIA gained,
+ * or 0. A bridgehead of the bridged ring system around the site is never a target: the cation
+ * cannot become planar there (1-norbornyl and 1-bicyclo[2.2.2]octyl cations form only with
+ * great difficulty; Bartlett & Knox, J. Am. Chem. Soc. 1939, 61, 3184, from memory). */
+static double best_shift(const as_mol *m, const as_site *s, int e, int q, int *to,
+                         int *migrant)
 {
     double here = as_sites_cation_hia(m, e, -1, q, NULL);
     double best = 0.0;
@@ -573,6 +766,8 @@ static double best_shift(const as_mol *m, int e, int q, int *to, int *migrant)
         int n = a->nbr[i];
         const as_atom *na = &m->atoms[n];
         if (n == q || na->elem != 6 || na->aromatic || as_mol_bond_order_sum(m, n) != na->degree)
+            continue;
+        if (s->face != AS_FACE_NONE && (n == s->bridgehead[0] || n == s->bridgehead[1]))
             continue;
         /* 1,2-hydride shift */
         if (na->total_h > 0) {
@@ -795,7 +990,7 @@ as_status as_addition_run(const as_mol *sub, const as_sites *sites, int site,
             (pass == 0 || alike)) {
             int to, migrant;
             int e = s->end[1 - k].atom, q = s->end[k].atom;
-            double gain = best_shift(sub, e, q, &to, &migrant);
+            double gain = best_shift(sub, s, e, q, &to, &migrant);
             if (gain > 0.0) {
                 st = build_shift(sub, sites, site, k, rule, &g, to, migrant, gain, &ad, err);
                 if (st != AS_OK)

@@ -69,10 +69,16 @@ static void sb_int(sbuf *b, long v)
 
 /* ---------------------------------------------------------------- ranking */
 
+typedef struct ringbond {
+    int opener, closer, bond;
+    int digit;
+} ringbond;
+
 typedef struct canon_ctx {
     const as_mol *m;
     const as_canon_opts *o;
     int n;
+    void *block;       /* the one allocation holding every array below */
     int *cls;          /* constitutional classes (refined, no tie breaking) */
     char *real_tetra;  /* per tetra record */
     char *real_db;     /* per dbs record */
@@ -81,8 +87,10 @@ typedef struct canon_ctx {
     /* refinement scratch */
     int *order;
     int *tmp;
-    int *nkey;         /* per atom, degree sorted neighbour codes */
-    int *newrank;
+    int *scratch;      /* 11 n ints for refine() */
+    int *wblock;       /* writer scratch, reused by every complete ordering */
+    ringbond *wrb;     /* ring bonds, one per bond at most */
+    signed char *wdir; /* bond marks */
     /* best string so far */
     char *best;
     size_t best_len;
@@ -95,95 +103,27 @@ static int bond_code(const as_bond *b)
     return b->aromatic ? 4 : b->order;
 }
 
-/* Compares atoms x, y by (rank, sorted neighbour codes). */
-static int key_cmp(const canon_ctx *c, const int *rank, int x, int y)
+/* Sorts v[0..n) ascending by key[v[i]] (insertion sort for short runs, else merge sort
+ * through tmp). */
+static void sort_by_key(int *v, int n, const int *key, int *tmp)
 {
-    if (rank[x] != rank[y])
-        return rank[x] < rank[y] ? -1 : 1;
-    int dx = c->m->atoms[x].degree, dy = c->m->atoms[y].degree;
-    if (dx != dy)
-        return dx < dy ? -1 : 1;
-    const int *kx = c->nkey + (size_t)x * AS_MAX_DEGREE, *ky = c->nkey + (size_t)y * AS_MAX_DEGREE;
-    for (int i = 0; i < dx; i++)
-        if (kx[i] != ky[i])
-            return kx[i] < ky[i] ? -1 : 1;
-    return 0;
-}
-
-/* Stable merge sort of c->order[0..n) by key_cmp. */
-static void sort_atoms(canon_ctx *c, const int *rank)
-{
-    int n = c->n;
-    int *a = c->order, *t = c->tmp;
+    if (n < 24) {
+        for (int i = 1; i < n; i++) {
+            int x = v[i], j = i - 1;
+            while (j >= 0 && key[v[j]] > key[x]) {
+                v[j + 1] = v[j];
+                j--;
+            }
+            v[j + 1] = x;
+        }
+        return;
+    }
     for (int w = 1; w < n; w *= 2) {
         for (int lo = 0; lo < n; lo += 2 * w) {
             int mid = lo + w < n ? lo + w : n, hi = lo + 2 * w < n ? lo + 2 * w : n;
             int i = lo, j = mid, k = lo;
             while (i < mid && j < hi)
-                t[k++] = key_cmp(c, rank, a[j], a[i]) < 0 ? a[j++] : a[i++];
-            while (i < mid)
-                t[k++] = a[i++];
-            while (j < hi)
-                t[k++] = a[j++];
-        }
-        memcpy(a, t, (size_t)n * sizeof(int));
-    }
-}
-
-static void insertion_sort_ints(int *v, int n)
-{
-    for (int i = 1; i < n; i++) {
-        int x = v[i], j = i - 1;
-        while (j >= 0 && v[j] > x) {
-            v[j + 1] = v[j];
-            j--;
-        }
-        v[j + 1] = x;
-    }
-}
-
-/* Fills atom x's sorted neighbour codes (neighbour rank, bond) in c->nkey. */
-static void neighbour_key(canon_ctx *c, const int *rank, int x)
-{
-    const as_atom *a = &c->m->atoms[x];
-    int *k = c->nkey + (size_t)x * AS_MAX_DEGREE;
-    for (int j = 0; j < a->degree; j++)
-        k[j] = rank[a->nbr[j]] * 8 + bond_code(&c->m->bonds[a->nbond[j]]);
-    insertion_sort_ints(k, a->degree);
-}
-
-/* One refinement step over every atom: rank[] ← position of the atom's (rank, degree,
- * neighbour codes) key in sorted order. Returns the number of classes after it. */
-static int refine_full(canon_ctx *c, int *rank)
-{
-    int n = c->n;
-    for (int i = 0; i < n; i++)
-        neighbour_key(c, rank, i);
-    for (int i = 0; i < n; i++)
-        c->order[i] = i;
-    sort_atoms(c, rank);
-    int nclass = 0;
-    for (int i = 0; i < n; i++) {
-        int x = c->order[i];
-        if (i == 0 || key_cmp(c, rank, c->order[i - 1], x) != 0) {
-            nclass++;
-            c->newrank[x] = i;
-        } else {
-            c->newrank[x] = c->newrank[c->order[i - 1]];
-        }
-    }
-    return nclass;
-}
-
-/* Stable merge sort of v[0..n) by key_cmp, using tmp[0..n). */
-static void sort_list(canon_ctx *c, const int *rank, int *v, int *tmp, int n)
-{
-    for (int w = 1; w < n; w *= 2) {
-        for (int lo = 0; lo < n; lo += 2 * w) {
-            int mid = lo + w < n ? lo + w : n, hi = lo + 2 * w < n ? lo + 2 * w : n;
-            int i = lo, j = mid, k = lo;
-            while (i < mid && j < hi)
-                tmp[k++] = key_cmp(c, rank, v[j], v[i]) < 0 ? v[j++] : v[i++];
+                tmp[k++] = key[v[j]] < key[v[i]] ? v[j++] : v[i++];
             while (i < mid)
                 tmp[k++] = v[i++];
             while (j < hi)
@@ -193,127 +133,156 @@ static void sort_list(canon_ctx *c, const int *rank, int *v, int *tmp, int n)
     }
 }
 
-/* Turns each atom's counted rank (the first position of its class) into the last position
- * of its class, lab[x] = rank[x] + size - 1, and leaves cnt[label] = the class size. */
-static void end_labels(const int *rank, int n, int *cnt, int *lab)
+/* Refines the ordered partition given by rank[] (rank = number of atoms in lower cells, i.e.
+ * the start of the atom's cell) to the coarsest equitable partition: atoms of one cell then
+ * have the same number of neighbours, per bond code, in every cell. Splitter cells are taken
+ * from a FIFO queue and only the atoms they touch move (Hopcroft's trick: a split cell that
+ * is not queued enqueues all its fragments but the largest), so a 100,000-atom chain takes
+ * O(m log n), not one full pass per bond of the chain. Fragments are ordered by their
+ * neighbour counts, so the result depends only on the input partition, never on atom
+ * numbering. */
+static void refine(canon_ctx *c, int *rank, int seed)
 {
-    memset(cnt, 0, (size_t)n * sizeof(int));
-    for (int i = 0; i < n; i++)
-        cnt[rank[i]]++;
-    for (int i = 0; i < n; i++)
-        lab[i] = rank[i] + cnt[rank[i]] - 1;
-    memset(cnt, 0, (size_t)n * sizeof(int));
-    for (int i = 0; i < n; i++)
-        cnt[lab[i]]++;
-}
-
-/* Refines rank[] (rank = number of atoms with a smaller key) until stable.
- *
- * The first two steps re-sort every atom, as CANON does. Later steps give exactly the
- * partition and class order a full step would, but touch only the atoms next to one whose
- * class changed in the step before. Only the order of classes matters to a step, so during
- * those steps a class is labelled by its last position instead of its first; a class that
- * splits then keeps its label for its last part and labels only shrink. An atom none of whose
- * neighbours changed keeps the neighbour codes its whole class shared one step earlier, and
- * every atom with a changed neighbour now has a strictly smaller key; so untouched atoms stay
- * together as the last part, keeping their label, and only the touched atoms are sorted.
- * A long chain, whose classes split one bond per step from each end, then costs about
- * n log n instead of n² log n (100,000 atoms: seconds, not hours). */
-static void refine(canon_ctx *c, int *rank)
-{
+    const as_mol *m = c->m;
     int n = c->n;
     if (n == 0)
         return;
-    int nclass = refine_full(c, rank);
-    memcpy(rank, c->newrank, (size_t)n * sizeof(int));
-    if (nclass == n)
-        return;
-    int *prev = malloc((size_t)n * sizeof(int));
-    int *lab = malloc((size_t)n * sizeof(int));
-    int *changed = malloc((size_t)n * sizeof(int));
-    int *touched = malloc((size_t)n * sizeof(int));
-    int *csize = malloc((size_t)n * sizeof(int));
-    int *stamp = calloc((size_t)n, sizeof(int));
-    if (!prev || !lab || !changed || !touched || !csize || !stamp) {
-        c->st = AS_ERR_NOMEM;
-        goto out;
+    int *elems = c->scratch, *pos = elems + n, *cell_of = pos + n, *cell_len = cell_of + n;
+    int *cnt = cell_len + n, *tcount = cnt + n, *touched = tcount + n, *tcells = touched + n;
+    int *queue = tcells + n, *inq = queue + n, *tmp = inq + n;
+    /* counting sort of atoms by rank: cells are contiguous, starting at their rank */
+    memset(cell_len, 0, (size_t)n * sizeof(int));
+    for (int v = 0; v < n; v++)
+        cell_len[rank[v]]++;
+    memcpy(tcount, cell_len, (size_t)n * sizeof(int)); /* fill cursor, reset below */
+    for (int v = 0; v < n; v++) {
+        int s = rank[v];
+        int k = s + cell_len[s] - tcount[s]--;
+        elems[k] = v;
+        pos[v] = k;
+        cell_of[v] = s;
     }
-    memcpy(prev, rank, (size_t)n * sizeof(int));
-    int classes = nclass;
-    nclass = refine_full(c, rank);
-    memcpy(rank, c->newrank, (size_t)n * sizeof(int));
-    if (nclass == classes || nclass == n)
-        goto out;
-    /* labels before and after the second step; changed = atoms whose class moved */
-    end_labels(prev, n, csize, lab);
-    memcpy(prev, lab, (size_t)n * sizeof(int));
-    end_labels(rank, n, csize, lab);
-    int nchanged = 0;
-    for (int i = 0; i < n; i++)
-        if (lab[i] != prev[i])
-            changed[nchanged++] = i;
-    int step = 0;
-    while (nchanged > 0 && nclass != n) {
-        step++;
-        /* the atoms next to one that changed, each once */
-        int nt = 0;
-        for (int d = 0; d < nchanged; d++) {
-            const as_atom *a = &c->m->atoms[changed[d]];
+    memset(cnt, 0, (size_t)n * sizeof(int));
+    memset(tcount, 0, (size_t)n * sizeof(int));
+    memset(inq, 0, (size_t)n * sizeof(int));
+    int qhead = 0, qlen = 0;
+    if (seed < 0) {
+        for (int s = 0; s < n; s += cell_len[s]) {
+            queue[qlen++] = s; /* qhead is 0 here */
+            inq[s] = 1;
+        }
+    } else {
+        /* the partition was equitable before one atom of cell `seed` was set apart: only
+         * the singleton and the rest of its old cell can split anything now */
+        queue[qlen++] = seed;
+        inq[seed] = 1;
+        if (seed + 1 < n && !inq[seed + 1] && cell_len[seed] == 1) {
+            queue[qlen++] = seed + 1;
+            inq[seed + 1] = 1;
+        }
+    }
+    while (qlen) {
+        int w = queue[qhead];
+        if (++qhead == n) /* a ring of n: no cell is queued twice */
+            qhead = 0;
+        qlen--;
+        inq[w] = 0;
+        int nt = 0, ntc = 0;
+        int wlen = cell_len[w];
+        for (int k = w; k < w + wlen; k++) {
+            const as_atom *a = &m->atoms[elems[k]];
             for (int j = 0; j < a->degree; j++) {
-                int y = a->nbr[j];
-                if (stamp[y] != step) {
-                    stamp[y] = step;
-                    touched[nt++] = y;
+                int u = a->nbr[j];
+                int code = bond_code(&m->bonds[a->nbond[j]]);
+                if (cnt[u] == 0) {
+                    /* first touch: move u to the tail of its cell */
+                    int x = cell_of[u];
+                    if (tcount[x] == 0)
+                        tcells[ntc++] = x;
+                    int target = x + cell_len[x] - 1 - tcount[x]++;
+                    int other = elems[target];
+                    elems[pos[u]] = other;
+                    pos[other] = pos[u];
+                    elems[target] = u;
+                    pos[u] = target;
+                    touched[nt++] = u;
                 }
+                cnt[u] += 1 << (4 * (code - 1));
             }
         }
-        for (int t = 0; t < nt; t++)
-            neighbour_key(c, lab, touched[t]);
-        sort_list(c, lab, touched, c->tmp, nt);
-        /* touched members of class e (positions e-size+1..e) take the lowest positions in key
-         * order, the untouched ones the highest; each part is labelled by its last position */
-        for (int t = 0; t < nt;) {
-            int e = lab[touched[t]], end = t;
-            while (end < nt && lab[touched[end]] == e)
-                end++;
-            int first = e - csize[e] + 1;
-            int untouched = csize[e] - (end - t);
-            for (int k = end - 1; k >= t; k--) {
-                if (k == end - 1 || key_cmp(c, lab, touched[k], touched[k + 1]) != 0) {
-                    /* last member of a part: its label is its position */
-                    int label = first + (k - t);
-                    if (k == end - 1 && untouched == 0)
-                        label = e;
-                    else
-                        nclass++;
-                    c->newrank[touched[k]] = label;
+        /* split touched cells, lowest start first */
+        for (int i = 1; i < ntc; i++) {
+            int x = tcells[i], j = i - 1;
+            while (j >= 0 && tcells[j] > x) {
+                tcells[j + 1] = tcells[j];
+                j--;
+            }
+            tcells[j + 1] = x;
+        }
+        for (int i = 0; i < ntc; i++) {
+            int x = tcells[i], len = cell_len[x], t = tcount[x];
+            int tail = x + len - t;
+            sort_by_key(elems + tail, t, cnt, tmp);
+            for (int k = tail; k < x + len; k++)
+                pos[elems[k]] = k;
+            /* fragment boundaries */
+            int nfrag = 0, largest = -1, largest_len = -1;
+            int starts[2];
+            (void)starts;
+            int fs = x;
+            int first_touched_frag = t == len ? x : tail;
+            if (t < len)
+                nfrag = 1;
+            int was_queued = inq[x];
+            /* walk fragments */
+            int k = first_touched_frag;
+            while (k < x + len) {
+                int e = k + 1;
+                while (e < x + len && cnt[elems[e]] == cnt[elems[k]])
+                    e++;
+                nfrag++;
+                k = e;
+            }
+            if (nfrag == 1)
+                continue;
+            /* set cell data and find the largest fragment */
+            fs = x;
+            while (fs < x + len) {
+                int e;
+                if (fs < tail) {
+                    e = tail;
                 } else {
-                    c->newrank[touched[k]] = c->newrank[touched[k + 1]];
+                    e = fs + 1;
+                    while (e < x + len && cnt[elems[e]] == cnt[elems[fs]])
+                        e++;
                 }
+                cell_len[fs] = e - fs;
+                for (int q = fs; q < e; q++)
+                    cell_of[elems[q]] = fs;
+                if (e - fs > largest_len) {
+                    largest_len = e - fs;
+                    largest = fs;
+                }
+                fs = e;
             }
-            t = end;
-        }
-        /* apply together, as one synchronous step */
-        nchanged = 0;
-        for (int t = 0; t < nt; t++) {
-            int x = touched[t];
-            if (c->newrank[x] != lab[x]) {
-                csize[lab[x]]--;
-                lab[x] = c->newrank[x];
-                csize[lab[x]]++;
-                changed[nchanged++] = x;
+            for (fs = x; fs < x + len; fs += cell_len[fs]) {
+                if (inq[fs])
+                    continue;
+                if (!was_queued && fs == largest)
+                    continue;
+                int qt = qhead + qlen++;
+                queue[qt < n ? qt : qt - n] = fs;
+                inq[fs] = 1;
             }
         }
+        for (int i = 0; i < nt; i++) {
+            int u = touched[i];
+            cnt[u] = 0;
+        }
+        for (int i = 0; i < ntc; i++)
+            tcount[tcells[i]] = 0;
     }
-    for (int i = 0; i < n; i++)
-        rank[i] = lab[i] - csize[lab[i]] + 1;
-out:
-    free(prev);
-    free(lab);
-    free(changed);
-    free(touched);
-    free(csize);
-    free(stamp);
+    memcpy(rank, cell_of, (size_t)n * sizeof(int));
 }
 
 /* rank[i] = number of atoms whose 128-bit key (inv[2i], inv[2i+1]) is smaller. */
@@ -350,16 +319,12 @@ static void rank_by_keys(canon_ctx *c, const uint64_t *inv, int *rank)
 }
 
 /* Initial invariants → ranks: degree, element, isotope, charge, H count, aromaticity, ring
- * membership, then the atom class when maps are written. */
+ * size (smallest ring through the atom), then the atom class when maps are written. */
 static void initial_ranks(canon_ctx *c, int *rank)
 {
     const as_mol *m = c->m;
     int n = c->n;
-    uint64_t *inv = malloc((size_t)(n ? n : 1) * 2 * sizeof(uint64_t));
-    if (!inv) {
-        c->st = AS_ERR_NOMEM;
-        return;
-    }
+    uint64_t *inv = (uint64_t *)(void *)c->scratch; /* 11 n ints hold 2 n keys */
     for (int i = 0; i < n; i++) {
         const as_atom *a = &m->atoms[i];
         uint64_t hi = 0;
@@ -369,12 +334,11 @@ static void initial_ranks(canon_ctx *c, int *rank)
         hi |= (uint64_t)((a->charge + 64) & 0xff) << 24;
         hi |= (uint64_t)(a->total_h & 0xff) << 16;
         hi |= (uint64_t)(a->aromatic & 1) << 8;
-        hi |= (uint64_t)(a->ring_size ? 1 : 0);
+        hi |= (uint64_t)(a->ring_size & 0xff); /* smallest ring: a graph invariant */
         inv[2 * i] = hi;
         inv[2 * i + 1] = c->o->atom_maps ? (uint64_t)(unsigned)a->mapnum : 0;
     }
     rank_by_keys(c, inv, rank);
-    free(inv);
 }
 
 /* ---------------------------------------------------------------- real stereo elements */
@@ -552,7 +516,7 @@ static void stereo_refine(canon_ctx *c)
         rank_by_keys(c, keys, rank);
         free(keys);
         int before = 0, after = 0;
-        refine(c, rank);
+        refine(c, rank, -1);
         /* count classes to see whether anything split */
         char *seen = calloc((size_t)(n ? n : 1), 1);
         if (!seen) {
@@ -588,11 +552,6 @@ static void stereo_refine(canon_ctx *c)
 
 /* ---------------------------------------------------------------- writer */
 
-typedef struct ringbond {
-    int opener, closer, bond;
-    int digit;
-} ringbond;
-
 typedef struct writer {
     canon_ctx *c;
     const int *rank;
@@ -605,6 +564,7 @@ typedef struct writer {
     int *child_start, *children; /* tree children per atom, in visit order */
     signed char *dir; /* per bond: 0 none, +1 '/', -1 '\\' in written direction */
     int *written_first; /* per bond: the atom written first */
+    int *stack, *it, *nbuf, *nchild, *byrank, *ci; /* traversal scratch */
 } writer;
 
 /* Neighbours of a sorted by rank. */
@@ -629,15 +589,8 @@ static int build_tree(writer *w)
 {
     const as_mol *m = w->c->m;
     int n = w->c->n;
-    int *stack = malloc((size_t)(n ? n : 1) * sizeof(int));
-    int *it = malloc((size_t)(n ? n : 1) * sizeof(int));
-    int *nb = malloc((size_t)(n ? n : 1) * AS_MAX_DEGREE * sizeof(int));
-    int *nchild = calloc((size_t)(n ? n : 1), sizeof(int));
-    if (!stack || !it || !nb || !nchild)
-        goto oom;
-    int *byrank = malloc((size_t)(n ? n : 1) * sizeof(int));
-    if (!byrank)
-        goto oom;
+    int *stack = w->stack, *it = w->it, *nb = w->nbuf, *nchild = w->nchild, *byrank = w->byrank;
+    memset(nchild, 0, (size_t)n * sizeof(int));
     for (int i = 0; i < n; i++)
         byrank[w->rank[i]] = i;
     for (int i = 0; i < n; i++) {
@@ -695,18 +648,7 @@ static int build_tree(writer *w)
         if (p >= 0)
             w->children[w->child_start[p] + nchild[p]++] = v;
     }
-    free(byrank);
-    free(stack);
-    free(it);
-    free(nb);
-    free(nchild);
     return 0;
-oom:
-    free(stack);
-    free(it);
-    free(nb);
-    free(nchild);
-    return -1;
 }
 
 /* Ring bonds at atom a in the order their digits are written: closures first (by the
@@ -806,6 +748,16 @@ static int written_chirality(const writer *w, int a)
     int odd = odd_perm(t->nbr, out);
     if (odd < 0)
         return 0;
+    if (has_h && m->atoms[a].total_h == 0 && m->atoms[a].degree == 3) {
+        /* lone-pair centre with one ring-closure digit and only single bonds: the extra swap
+         * of the reading convention (see smiles_read.c, lone_pair_flip) */
+        int rbs[AS_MAX_DEGREE], single = 1;
+        int nr = ring_bonds_at(w, a, rbs);
+        for (int k = 0; k < m->atoms[a].degree; k++)
+            single &= m->bonds[m->atoms[a].nbond[k]].order == AS_BOND_SINGLE;
+        if (nr == 1 && single)
+            odd ^= 1;
+    }
     return odd ? (t->parity == AS_CCW ? AS_CW : AS_CCW) : t->parity;
 }
 
@@ -1051,13 +1003,8 @@ static as_status emit(writer *w, sbuf *sb)
     int n = w->c->n;
     char used[100] = {0};
     /* explicit stack of (atom, next child index); branch parentheses by position */
-    int *stack = malloc((size_t)(n ? n : 1) * sizeof(int));
-    int *ci = malloc((size_t)(n ? n : 1) * sizeof(int));
-    if (!stack || !ci) {
-        free(stack);
-        free(ci);
-        return AS_ERR_NOMEM;
-    }
+    int *stack = w->stack, *ci = w->ci;
+    (void)n;
     int first_comp = 1;
     for (int k = 0; k < w->nseq; k++) {
         int s = w->seq[k];
@@ -1089,11 +1036,8 @@ static as_status emit(writer *w, sbuf *sb)
                             d++;
                         if (d == 100) {
                             d = 0;
-                            if (used[0]) {
-                                free(stack);
-                                free(ci);
+                            if (used[0])
                                 return AS_ERR_LIMIT;
-                            }
                         }
                         used[d] = 1;
                         r->digit = d;
@@ -1122,8 +1066,6 @@ static as_status emit(writer *w, sbuf *sb)
             top++;
         }
     }
-    free(stack);
-    free(ci);
     return sb->oom ? AS_ERR_NOMEM : AS_OK;
 }
 
@@ -1136,43 +1078,40 @@ static char *write_smiles(canon_ctx *c, const int *rank, as_status *st)
     memset(&w, 0, sizeof w);
     w.c = c;
     w.rank = rank;
-    size_t na = (size_t)(n ? n : 1), nb = (size_t)(m->nbonds ? m->nbonds : 1);
-    w.visited = malloc(na * sizeof(int));
-    w.parent = malloc(na * sizeof(int));
-    w.seq = malloc(na * sizeof(int));
-    w.rb = malloc(nb * sizeof(ringbond));
-    w.child_start = malloc((na + 1) * sizeof(int));
-    w.children = malloc(na * sizeof(int));
-    w.dir = calloc(nb, 1);
-    w.written_first = malloc(nb * sizeof(int));
+    size_t na = (size_t)(n ? n : 1);
+    int *p = c->wblock;
+    w.visited = p, p += na;
+    w.parent = p, p += na;
+    w.seq = p, p += na;
+    w.child_start = p, p += na + 1;
+    w.children = p, p += na;
+    w.stack = p, p += na;
+    w.it = p, p += na;
+    w.nchild = p, p += na;
+    w.byrank = p, p += na;
+    w.ci = p, p += na;
+    w.nbuf = p, p += na * AS_MAX_DEGREE;
+    w.written_first = p;
+    w.rb = c->wrb;
+    w.dir = c->wdir;
+    memset(w.dir, 0, (size_t)(m->nbonds ? m->nbonds : 1));
     sbuf sb = {0};
+    /* a first guess at the length saves most reallocations */
+    sb.cap = (size_t)n * 3 + 16;
+    sb.s = malloc(sb.cap);
     char *out = NULL;
     *st = AS_ERR_NOMEM;
-    if (!w.visited || !w.parent || !w.seq || !w.rb || !w.child_start || !w.children || !w.dir ||
-        !w.written_first)
-        goto done;
-    if (build_tree(&w))
-        goto done;
+    if (!sb.s)
+        return NULL;
+    sb.s[0] = '\0';
+    build_tree(&w);
     assign_dirs(&w);
     *st = emit(&w, &sb);
     if (*st == AS_OK) {
-        if (!sb.s)
-            sb_puts(&sb, "");
         out = sb.s;
         sb.s = NULL;
-        if (!out)
-            *st = AS_ERR_NOMEM;
     }
-done:
     free(sb.s);
-    free(w.visited);
-    free(w.parent);
-    free(w.seq);
-    free(w.rb);
-    free(w.child_start);
-    free(w.children);
-    free(w.dir);
-    free(w.written_first);
     return out;
 }
 
@@ -1190,7 +1129,20 @@ static void consider(canon_ctx *c, char *s)
     }
 }
 
-static void explore(canon_ctx *c, int *rank)
+/* Number of ring bonds at atom a (a graph invariant: bonds that lie on a cycle). */
+static int ring_bond_count(const as_mol *m, int a)
+{
+    int k = 0;
+    for (int j = 0; j < m->atoms[a].degree; j++)
+        k += m->bonds[m->atoms[a].nbond[j]].ring_size > 0;
+    return k;
+}
+
+/* Breaks the ties of rank (refined first, unless `refined` says it is already equitable:
+ * refining an equitable partition changes nothing). */
+/* seed: -2 when rank is already equitable, -1 to refine from scratch, else the start of the
+ * cell just split by setting one atom apart (only that split is propagated). */
+static void explore(canon_ctx *c, int *rank, int seed)
 {
     int n = c->n;
     int *work = malloc((size_t)(n ? n : 1) * sizeof(int));
@@ -1202,7 +1154,8 @@ static void explore(canon_ctx *c, int *rank)
         return;
     }
     for (;;) {
-        refine(c, rank);
+        if (seed != -2)
+            refine(c, rank, seed);
         memset(cnt, 0, (size_t)n * sizeof(int));
         for (int i = 0; i < n; i++)
             cnt[rank[i]]++;
@@ -1232,7 +1185,13 @@ static void explore(canon_ctx *c, int *rank)
         /* members of the first tied class, in atom order; branching pays only where the
          * class touches a stereo element (swapping the F atoms of a CF3 cannot change the
          * string, swapping two mirror-related stereocentres can) */
+        /* In acyclic parts refinement classes are automorphism orbits (trees), so any
+         * member will do, and so they are for atoms of a single ring (phenyl ortho pairs);
+         * where rings fuse or bridge (three or more ring bonds on the atom) a class can hold
+         * atoms that no symmetry exchanges (cages), so those ties are explored too. */
         int branch = r_near >= 0;
+        for (int i = 0; i < n && !branch; i++)
+            branch = rank[i] == r && ring_bond_count(c->m, i) >= 3;
         int first = -1;
         for (int i = 0; i < n; i++)
             if (rank[i] == r) {
@@ -1242,13 +1201,13 @@ static void explore(canon_ctx *c, int *rank)
                         break;
                     continue;
                 }
-                if (c->leaves >= MAX_LEAVES)
+                if (c->leaves >= (c->has_stereo ? MAX_LEAVES : MAX_LEAVES / 4))
                     break;
                 memcpy(work, rank, (size_t)n * sizeof(int));
                 for (int j = 0; j < n; j++)
                     if (work[j] == r && j != i)
                         work[j] = r + 1;
-                explore(c, work);
+                explore(c, work, r);
                 if (c->st != AS_OK)
                     break;
             }
@@ -1257,6 +1216,7 @@ static void explore(canon_ctx *c, int *rank)
         for (int j = 0; j < n; j++)
             if (rank[j] == r && j != first)
                 rank[j] = r + 1;
+        seed = r;
     }
     free(work);
     free(cnt);
@@ -1273,15 +1233,14 @@ void as_canon_opts_init(as_canon_opts *o)
 
 static void ctx_free(canon_ctx *c)
 {
-    free(c->cls);
-    free(c->real_tetra);
-    free(c->real_db);
-    free(c->near_stereo);
-    free(c->order);
-    free(c->tmp);
-    free(c->nkey);
-    free(c->newrank);
+    free(c->block);
     free(c->best);
+}
+
+/* Bytes of n items of size sz, rounded up to keep the next array 16-byte aligned. */
+static size_t part(size_t n, size_t sz)
+{
+    return (n * sz + 15) & ~(size_t)15;
 }
 
 static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
@@ -1291,21 +1250,36 @@ static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
     c->o = o;
     c->n = m->natoms;
     size_t na = (size_t)(m->natoms ? m->natoms : 1);
-    c->cls = malloc(na * sizeof(int));
-    c->real_tetra = calloc((size_t)(m->ntetra ? m->ntetra : 1), 1);
-    c->real_db = calloc((size_t)(m->ndbs ? m->ndbs : 1), 1);
-    c->near_stereo = calloc(na, 1);
-    c->order = malloc(na * sizeof(int));
-    c->tmp = malloc(na * sizeof(int));
-    c->nkey = malloc(na * AS_MAX_DEGREE * sizeof(int));
-    c->newrank = malloc(na * sizeof(int));
-    if (!c->cls || !c->real_tetra || !c->real_db || !c->near_stereo || !c->order || !c->tmp || !c->nkey ||
-        !c->newrank)
+    size_t nt = (size_t)(m->ntetra ? m->ntetra : 1), nd = (size_t)(m->ndbs ? m->ndbs : 1);
+    size_t nbd = (size_t)(m->nbonds ? m->nbonds : 1);
+    /* one block for every array: a molecule costs one allocation, not ten */
+    size_t sz_cls = part(na, sizeof(int)), sz_tetra = part(nt, 1), sz_db = part(nd, 1);
+    size_t sz_near = part(na, 1), sz_order = part(na, sizeof(int)), sz_tmp = part(na, sizeof(int));
+    size_t sz_scratch = part(na * 11, sizeof(int));
+    size_t sz_wblock = part(na * (11 + AS_MAX_DEGREE) + 1 + nbd, sizeof(int));
+    size_t sz_wrb = part(nbd, sizeof(ringbond)), sz_wdir = part(nbd, 1);
+    char *b = malloc(sz_cls + sz_tetra + sz_db + sz_near + sz_order + sz_tmp + sz_scratch +
+                     sz_wblock + sz_wrb + sz_wdir);
+    if (!b)
         return AS_ERR_NOMEM;
+    c->block = b;
+    c->cls = (int *)(void *)b, b += sz_cls;
+    c->real_tetra = b, b += sz_tetra;
+    c->real_db = b, b += sz_db;
+    c->near_stereo = b, b += sz_near;
+    c->order = (int *)(void *)b, b += sz_order;
+    c->tmp = (int *)(void *)b, b += sz_tmp;
+    c->scratch = (int *)(void *)b, b += sz_scratch;
+    c->wblock = (int *)(void *)b, b += sz_wblock;
+    c->wrb = (ringbond *)(void *)b, b += sz_wrb;
+    c->wdir = (signed char *)b;
+    memset(c->real_tetra, 0, nt);
+    memset(c->real_db, 0, nd);
+    memset(c->near_stereo, 0, na);
     initial_ranks(c, c->cls);
     if (c->st != AS_OK)
         return c->st;
-    refine(c, c->cls);
+    refine(c, c->cls, -1);
     return AS_OK;
 }
 
@@ -1430,8 +1404,9 @@ as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out
             st = AS_ERR_NOMEM;
     }
     if (st == AS_OK) {
+        /* c.cls is equitable: it comes from refine() in ctx_init or in stereo_refine */
         memcpy(rank, c.cls, (size_t)m->natoms * sizeof(int));
-        explore(&c, rank);
+        explore(&c, rank, -2);
         st = c.st;
     }
     if (st == AS_OK && c.best) {

@@ -81,6 +81,8 @@ void as_predict_opts_init(as_predict_opts *o)
     o->temp_c = NAN;
     o->min_share = 0.5;
     o->max_products = 8;
+    o->rationale = 1;
+    o->substrate_smiles = NULL;
 }
 
 static char *xstrdup(const char *s)
@@ -136,9 +138,10 @@ static int say(as_outcome *o, const char *f, ...)
     return 0;
 }
 
+/* "[H]" or deuterium "[2H]": a hydrogen for ranking and regio words. */
 static int is_h_group(const char *g)
 {
-    return g && strcmp(g, "[H]") == 0;
+    return g && (strcmp(g, "[H]") == 0 || strcmp(g, "[2H]") == 0);
 }
 
 /* A readable label for a group SMILES: "[H]" → "H", "O" → "OH", "OC" → "OCH3". */
@@ -146,6 +149,8 @@ static void group_label(const char *g, char *buf, size_t cap)
 {
     if (!g)
         snprintf(buf, cap, "-");
+    else if (strcmp(g, "[2H]") == 0)
+        snprintf(buf, cap, "D");
     else if (is_h_group(g))
         snprintf(buf, cap, "H");
     else if (strcmp(g, "O") == 0)
@@ -168,6 +173,9 @@ static double rt_kcal(double temp_c)
 typedef struct cand {
     as_mol *mol;
     char *smiles;
+    char *mirror;       /* canonical SMILES of the mirror image (racemic products), or NULL */
+    int enantiomers;    /* 1 when the two enantiomers came from different orientations */
+    const char *face;   /* "exo", "not predicted" or "n/a" */
     double share;
     int published;
     char *src;
@@ -188,6 +196,7 @@ static void cand_free(cand *c)
 {
     as_mol_free(c->mol);
     free(c->smiles);
+    free(c->mirror);
     free(c->src);
     memset(c, 0, sizeof *c);
 }
@@ -384,6 +393,30 @@ static as_status shares_for_run(const as_outcome *o, const as_site *s, const as_
     return AS_OK;
 }
 
+/* Canonical SMILES of the mirror image of m (every parity inverted) in *out. */
+static as_status mirror_smiles(const as_mol *m, char **out, as_error *err)
+{
+    *out = NULL;
+    as_mol *q = as_mol_copy(m);
+    if (!q)
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    for (int i = 0; i < q->ntetra; i++)
+        q->tetra[i].parity = q->tetra[i].parity == AS_CCW ? AS_CW : AS_CCW;
+    as_status st = as_canon_smiles(q, NULL, out, err);
+    as_mol_free(q);
+    return st;
+}
+
+/* The facial word of an adduct at site s for rule r. */
+static const char *face_word(const as_site *s, const as_adduct *ad, const as_rule *r)
+{
+    if (ad->exo)
+        return "exo";
+    if (s->face == AS_FACE_NONE || r->regio == AS_REGIO_CLEAVE)
+        return "n/a";
+    return "not predicted";
+}
+
 /* Runs the rule on site `site` of mol (sites of mol in `sites`), appending candidates with
  * shares scaled by `scale` percent. `keep` receives the adduct list for rationale use when
  * not NULL (ownership passes to the caller). */
@@ -414,8 +447,13 @@ static as_status run_site(as_outcome *o, const as_mol *mol, const as_sites *site
         cand c;
         memset(&c, 0, sizeof c);
         st = as_canon_smiles(ad->mol, NULL, &c.smiles, err);
-        if (st != AS_OK)
+        if (st == AS_OK && ad->stereo == AS_STEREO_RACEMIC && ad->marked)
+            st = mirror_smiles(ad->mol, &c.mirror, err);
+        if (st != AS_OK) {
+            cand_free(&c);
             goto done;
+        }
+        c.face = parent ? parent->face : face_word(&sites->site[site], ad, o->rule);
         c.mol = ad->mol;
         ad->mol = NULL;
         c.share = scale * share[i] / 100.0;
@@ -573,6 +611,12 @@ static int rationale_sites(as_outcome *o)
                       "the other C=C is kept.",
                    o->equiv, s0->end[0].atom + 1, s0->end[1].atom + 1, site_key(s0, o->rule, o->variant),
                    site_key(sr, o->rule, o->variant), sr->end[0].atom + 1, sr->end[1].atom + 1);
+    if (fabs(site_key(s0, o->rule, o->variant) - site_key(sr, o->rule, o->variant)) < 1.0)
+        return say(o, "With %.0f equivalent(s) C%d=C%d is taken first, but C%d=C%d scores the "
+                      "same (summed cation hydride affinities %.0f kcal/mol each): expect both "
+                      "to react, not a selective reaction at one C=C.",
+                   o->equiv, s0->end[0].atom + 1, s0->end[1].atom + 1, sr->end[0].atom + 1,
+                   sr->end[1].atom + 1, site_key(s0, o->rule, o->variant));
     return say(o, "With %.0f equivalent(s) C%d=C%d reacts first: it is the more electron-rich "
                   "(summed cation hydride affinities of its ends %.0f against %.0f kcal/mol at "
                   "C%d=C%d; more substituted alkenes react faster with electrophiles); the "
@@ -619,15 +663,19 @@ static int rationale_mechanism(as_outcome *o, const as_adducts *l)
         return 0;
     int c1 = pref->first_atom, c2 = pref->second_atom;
     const as_site_end *e1 = end_at(s, c1), *e2 = end_at(s, c2);
+    /* symmetric C=C: the two orientations were merged as the enantiomers of one product */
+    int one_product = o->nproducts == 1 && o->products[0].enantiomers_merged;
     switch (r->regio) {
     case AS_REGIO_CATION:
         if (pref->ends_alike) {
             if (say(o, "Both ends give cations of the same kind (C%d: %s, %.0f kcal/mol; C%d: "
                        "%s, %.0f kcal/mol estimated hydride ion affinity), so %s goes to either "
-                       "carbon and the two regioisomers form in similar amounts: no major "
-                       "product.",
+                       "carbon%s.",
                     e1->atom + 1, e1->cation_kind, e1->cation_hia, e2->atom + 1,
-                    e2->cation_kind, e2->cation_hia, g1))
+                    e2->cation_kind, e2->cation_hia, g1,
+                    one_product ? ", and both orientations give the same product"
+                                : " and the two regioisomers form in similar amounts: no major "
+                                  "product"))
                 return -1;
         } else if (r->shifts) {
             if (say(o, "%s adds to C%d so that the %s forms at C%d, a %s cation (estimated "
@@ -637,8 +685,8 @@ static int rationale_mechanism(as_outcome *o, const as_adducts *l)
                     e1->cation_hia, e1->cation_kind, c1 + 1, g2, c2 + 1))
                 return -1;
         } else {
-            if (say(o, "The electrophile bridges C%d and C%d as a %s; %s opens it at C%d, the "
-                       "carbon better able to carry positive charge (%s, estimated hydride ion "
+            if (say(o, "The electrophile bridges C%d and C%d as a %s; %s opens it from the "
+                       "opposite face at C%d, the carbon better able to carry positive charge (%s, estimated hydride ion "
                        "affinity %.0f against %.0f kcal/mol at C%d), and %s ends on C%d. No free "
                        "carbocation forms, so the skeleton does not rearrange.",
                     c1 + 1, c2 + 1, r->intermediate, g2, c2 + 1, e2->cation_kind,
@@ -658,9 +706,10 @@ static int rationale_mechanism(as_outcome *o, const as_adducts *l)
     case AS_REGIO_BORANE:
         if (pref->ends_alike) {
             if (say(o, "Both ends are about equally hindered (steric demand %.2f and %.2f methyl "
-                       "equivalents): boron goes to either carbon and the two alcohols form in "
-                       "similar amounts.",
-                    e1->steric, e2->steric))
+                       "equivalents): boron goes to either carbon%s.",
+                    e1->steric, e2->steric,
+                    one_product ? ", and both orientations give the same product"
+                                : " and the two alcohols form in similar amounts"))
                 return -1;
         } else if (say(o, "In the %s boron bonds to C%d, the less hindered carbon (steric demand "
                           "%.2f against %.2f methyl equivalents at C%d; reagent bulk %.1f), and H "
@@ -671,22 +720,23 @@ static int rationale_mechanism(as_outcome *o, const as_adducts *l)
             return -1;
         break;
     case AS_REGIO_NONE:
+        /* the rule's summary states the mechanism in a chemist's words */
         if (v->bridge) {
-            if (say(o, "One %s atom bridges C%d and C%d (%s, %s addition).", v->bridge, c1 + 1,
-                    c2 + 1, r->intermediate, r->stereo == AS_ADD_ANTI ? "anti" : "syn"))
+            if (say(o, "One %s atom bridges C%d and C%d (%s addition). %s", v->bridge, c1 + 1,
+                    c2 + 1, r->stereo == AS_ADD_ANTI ? "anti" : "syn", r->summary))
                 return -1;
-        } else if (say(o, "%s and %s add to C%d and C%d (%s addition; %s).", g1,
+        } else if (say(o, "%s and %s add to C%d and C%d (%s addition). %s", g1,
                         v->second ? g2 : g1, c1 + 1, c2 + 1,
                         r->stereo == AS_ADD_SYN    ? "syn"
                         : r->stereo == AS_ADD_ANTI ? "anti"
                                                    : "non-stereospecific",
-                        r->intermediate)) {
+                        r->summary)) {
             return -1;
         }
         break;
     case AS_REGIO_CLEAVE:
-        if (say(o, "The C%d=C%d bond is cut (%s); each carbon becomes a carbonyl carbon, and "
-                   "with %s work-up %s.",
+        if (say(o, "The C%d=C%d bond is cut (via the %s); each carbon becomes a carbonyl carbon, "
+                   "and with %s work-up %s.",
                 c1 + 1, c2 + 1, r->intermediate, v->workup ? v->workup : "the usual",
                 v->workup && strcmp(v->workup, "oxidative") == 0
                     ? "a carbon that carried H becomes a carboxylic acid"
@@ -714,6 +764,53 @@ static int rationale_mechanism(as_outcome *o, const as_adducts *l)
             return -1;
     }
     /* stereo */
+    if (pref->exo) {
+        if (say(o, "C%d=C%d is the two-carbon bridge of a bicyclo[2.2.1] ring system (norbornene "
+                   "type): the reagent approaches from the exo face, syn to the one-carbon bridge "
+                   "C%d, since the endo face is shielded by the endo hydrogens of the other "
+                   "two-carbon bridge (%s). The new bonds are written exo with @/@@; the product "
+                   "is %s.",
+                s->end[0].atom + 1, s->end[1].atom + 1, s->short_bridge[0] + 1,
+                r->facial_source,
+                pref->stereo == AS_STEREO_MESO      ? "meso (achiral)"
+                : pref->stereo == AS_STEREO_RACEMIC ? "racemic (both enantiomers)"
+                : pref->stereo == AS_STEREO_SINGLE  ? "a single stereoisomer (the substrate's "
+                                                      "configuration is kept)"
+                : pref->stereo == AS_STEREO_DIASTEREOMERS
+                    ? "exo at the new centres, but their relation to other stereocentres of "
+                      "the substrate is not fixed (diastereomers)"
+                    : "without new stereocentres"))
+            return -1;
+        return 0;
+    }
+    int open_face = pref->stereo == AS_STEREO_DIASTEREOMERS && r->regio != AS_REGIO_CLEAVE;
+    if (s->face == AS_FACE_EXO && r->regio != AS_REGIO_CLEAVE) {
+        if (r->facial && strcmp(r->facial, "not_predicted") == 0) {
+            if (say(o, "C%d=C%d is the two-carbon bridge of a bicyclo[2.2.1] ring system "
+                       "(norbornene type): for %s the outcome there is not predicted: %s.",
+                    s->end[0].atom + 1, s->end[1].atom + 1, r->id, r->facial_source))
+                return -1;
+        } else if (open_face &&
+                   say(o, "C%d=C%d is the two-carbon bridge of a bicyclo[2.2.1] ring system "
+                          "(norbornene type); which face %s attacks there is not predicted.",
+                       s->end[0].atom + 1, s->end[1].atom + 1, r->id)) {
+            return -1;
+        }
+    } else if (s->face == AS_FACE_UNCLEAR && open_face) {
+        int b[3] = {2, s->bridge_len[0], s->bridge_len[1]};
+        for (int i = 0; i < 3; i++)
+            for (int j = i + 1; j < 3; j++)
+                if (b[j] > b[i]) {
+                    int t = b[i];
+                    b[i] = b[j];
+                    b[j] = t;
+                }
+        if (say(o, "C%d=C%d bridges the two bridgeheads of a bicyclo[%d.%d.%d] ring system; "
+                   "neither face is clearly the more open one in our model (or the one-carbon "
+                   "bridge is substituted), so the facial outcome is not predicted.",
+                s->end[0].atom + 1, s->end[1].atom + 1, b[0], b[1], b[2]))
+            return -1;
+    }
     if (pref->marked) {
         int low_t_radical = r->regio == AS_REGIO_RADICAL && r->stereo == AS_ADD_NONE;
         if (low_t_radical &&
@@ -739,6 +836,17 @@ static int rationale_mechanism(as_outcome *o, const as_adducts *l)
                    "diastereomers.",
                 r->intermediate))
             return -1;
+    } else if (pref->new_centres >= 1 && pref->stereo == AS_STEREO_DIASTEREOMERS &&
+               s->geometry != AS_GEOM_UNKNOWN) {
+        if (say(o, "The product has further stereocentres (kept from the substrate, or ring "
+                   "atoms that become stereocentres) whose relation to the new ones is not "
+                   "fixed: the new stereocentres are left unassigned (a mixture of "
+                   "diastereomers%s).",
+                pref->new_centres >= 2 && r->stereo != AS_ADD_NONE
+                    ? r->stereo == AS_ADD_SYN ? ", each from syn addition"
+                                              : ", each from anti addition"
+                    : ""))
+            return -1;
     } else if (pref->new_centres >= 2) {
         if (say(o, "The C=C geometry is not given (no / or \\ marks), so the relative "
                    "configuration of the new stereocentres is not assigned."))
@@ -757,14 +865,28 @@ static int cmp_share(const void *a, const void *b)
     return strcmp(x->smiles, y->smiles);
 }
 
-/* Merges candidates with equal SMILES (shares add). */
+/* Merges candidates with equal SMILES (shares add), and the two enantiomers of a racemic
+ * product that two orientations reach (hydroboration of norbornene at either carbon): a
+ * racemate is one product, written as one enantiomer. */
 static void dedupe(cands *l)
 {
     for (int i = 0; i < l->n; i++) {
         for (int j = i + 1; j < l->n; j++) {
-            if (strcmp(l->v[i].smiles, l->v[j].smiles) != 0)
+            int enant = l->v[i].mirror && l->v[j].stereo == AS_STEREO_RACEMIC &&
+                        l->v[i].stereo == AS_STEREO_RACEMIC &&
+                        strcmp(l->v[i].mirror, l->v[j].smiles) == 0;
+            if (!enant && strcmp(l->v[i].smiles, l->v[j].smiles) != 0)
                 continue;
             cand *a = &l->v[i], *b = &l->v[j];
+            if (enant) {
+                a->enantiomers = b->enantiomers = 1;
+                char *ns = xstrdup("both orientations give this product, one as each "
+                                   "enantiomer (racemate)");
+                if (ns) {
+                    free(a->src);
+                    a->src = ns;
+                }
+            }
             if (b->share > a->share) { /* keep the description of the larger path */
                 cand t = *a;
                 *a = *b;
@@ -813,7 +935,13 @@ as_status as_predict(const as_rules *rules, const as_mol *substrate,
     o->equiv = opts->equiv > 0 ? opts->equiv : match->equiv > 0 ? match->equiv : 1.0;
     cands cl = {0, 0, NULL}, next = {0, 0, NULL};
     as_adducts *first_run = NULL;
-    as_status st = as_canon_smiles(substrate, NULL, &o->substrate, err);
+    as_status st = AS_OK;
+    if (opts->substrate_smiles) {
+        if (!(o->substrate = xstrdup(opts->substrate_smiles)))
+            st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    } else {
+        st = as_canon_smiles(substrate, NULL, &o->substrate, err);
+    }
     if (st != AS_OK)
         goto fail;
     st = as_sites_find(substrate, &o->sites, err);
@@ -900,6 +1028,8 @@ as_status as_predict(const as_rules *rules, const as_mol *substrate,
         p->site = c->site;
         p->first_atom = c->first_atom;
         p->second_atom = c->second_atom;
+        p->face = c->face ? c->face : "n/a";
+        p->enantiomers_merged = c->enantiomers;
         if (mixture)
             p->role = cl.v[0].share - c->share < MIXTURE_BAND ? AS_PRODUCT_MIXTURE
                                                               : AS_PRODUCT_MINOR;
@@ -909,6 +1039,8 @@ as_status as_predict(const as_rules *rules, const as_mol *substrate,
     o->nproducts = keep;
     cands_clear(&cl);
 
+    if (!opts->rationale)
+        goto done;
     if (rationale_sites(o) || rationale_mechanism(o, first_run) ||
         (o->nreact > 1 &&
          say(o, "The next C=C (by the same ranking) then reacts in the same way with the "
@@ -922,11 +1054,22 @@ as_status as_predict(const as_rules *rules, const as_mol *substrate,
     }
     for (int i = 0; i < o->nproducts; i++) {
         const as_product *p = &o->products[i];
+        if (p->enantiomers_merged &&
+            say(o, "The two orientations give the two enantiomers of %s: one product, formed "
+                   "as the racemate.",
+                p->smiles)) {
+            st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+            goto fail;
+        }
+    }
+    for (int i = 0; i < o->nproducts; i++) {
+        const as_product *p = &o->products[i];
         if (say(o, "Share of %s: %.1f%% (%s).", p->smiles, p->share, p->share_source)) {
             st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
             goto fail;
         }
     }
+done:
     as_adducts_free(first_run);
     *out = o;
     return AS_OK;
@@ -1043,6 +1186,7 @@ as_status as_outcome_json(const as_outcome *o, int pretty, char **out, as_error 
         ok &= cJSON_AddBoolToObject(jp, "rearranged", p->rearranged) != NULL;
         ok &= cJSON_AddStringToObject(jp, "regio", p->regio) != NULL;
         ok &= cJSON_AddStringToObject(jp, "path", path_name(p->path)) != NULL;
+        ok &= cJSON_AddStringToObject(jp, "face", p->face ? p->face : "n/a") != NULL;
     }
     cJSON *rat = cJSON_AddArrayToObject(root, "rationale");
     ok &= rat != NULL;

@@ -453,11 +453,13 @@ static int needs_double(const as_mol *m, int i)
         sum += o == AS_BOND_AROMATIC ? 1 : o;
     }
     int free_v = v - sum - a->total_h;
-    if (free_v == 1)
-        return 1;
-    if (free_v == 3 && (z == 15 || z == 16)) /* hypervalent P/S in aromatic rings: rare */
-        return 1;
-    return 0;
+    /* P(V), S(IV), S(VI) in aromatic rings (phosphazenes written with lowercase p): the next
+     * normal valence that the bonds fit */
+    if (free_v < 0 && (z == 15 || z == 33))
+        free_v = 5 - sum - a->total_h;
+    if (free_v < 0 && (z == 16 || z == 34))
+        free_v = (sum + a->total_h <= 4 ? 4 : 6) - sum - a->total_h;
+    return free_v == 1;
 }
 
 typedef struct kek {
@@ -605,46 +607,54 @@ static as_status pass_kekule(as_mol *m, as_error *err)
 
 /* ---------------------------------------------------------------- pass: aromaticity */
 
-/* π electrons atom i gives to a ring made of the atoms flagged in inring; -1 when the atom
- * cannot be part of an aromatic ring. Model: Hückel, common practice (as in most toolkits):
- * ring double bond 1 e; exocyclic C=O/C=N/C=S 0 e; lone pair (NH, NR, O, S, C-) 2 e;
- * empty p orbital (C+, B) 0 e. */
-static int pi_electrons(const as_mol *m, int i, const char *inring, const char *arom)
+/* Ring systems: atoms joined by ring bonds share an id (union-find); -1 for acyclic atoms. */
+static int find_root(int *parent, int x)
+{
+    while (parent[x] != x) {
+        parent[x] = parent[parent[x]];
+        x = parent[x];
+    }
+    return x;
+}
+
+/* π electrons atom i gives to any ring of its ring system, or -1 when it cannot be part of
+ * an aromatic ring. Model: Hückel, common practice (as in most toolkits): a double bond to
+ * another atom of the same ring system 1 e; exocyclic C=O/C=N/C=S 0 e; lone pair (NH, NR,
+ * O, S, C-) 2 e; empty p orbital (C+, B) 0 e; anything sp3 or with more than three
+ * neighbours (P(V), S(IV)) cannot take part.
+ * The count depends only on the graph, never on which Kekulé structure was written: bonds
+ * outside rings are double in every Kekulé structure or in none, so "double bond inside the
+ * ring system" is the same for all of them. */
+static int pi_electrons(const as_mol *m, int i, const int *sys)
 {
     const as_atom *a = &m->atoms[i];
-    int dbl_in = 0, dbl_exo = -1, sum = 0, triple = 0;
-    /* '*' never joins an aromatic ring: the reader cannot kekulise an aromatic '*', so a ring
-     * through one must stay Kekulé or its SMILES would not read back (found by fuzz_smiles). */
-    if (a->elem == 0)
+    /* '*' never joins an aromatic ring: the reader cannot kekulise an aromatic '*' */
+    if (sys[i] < 0 || a->elem == 0 || a->degree + a->total_h > 3)
         return -1;
+    int dbl_in = 0, dbl_exo = -1, sum = 0;
     for (int k = 0; k < a->degree; k++) {
         const as_bond *b = &m->bonds[a->nbond[k]];
         sum += b->order;
         if (b->order == AS_BOND_TRIPLE)
-            triple = 1;
+            return -1;
         if (b->order == AS_BOND_DOUBLE) {
             int y = a->nbr[k];
-            if (inring[y])
+            if (sys[y] == sys[i] && b->ring_size)
                 dbl_in++;
             else
                 dbl_exo = y;
         }
     }
-    if (triple)
-        return -1;
-    if (dbl_in == 1)
+    if (dbl_in == 1 && dbl_exo < 0)
         return 1;
-    if (dbl_in > 1)
+    if (dbl_in)
         return -1;
     if (dbl_exo >= 0) {
         const as_atom *y = &m->atoms[dbl_exo];
-        if (arom && arom[dbl_exo])
-            return 1; /* double bond into a neighbouring aromatic ring */
-        if (y->elem == 8 || y->elem == 7 || y->elem == 16)
-            return a->elem == 6 ? 0 : -1; /* C=O in pyridones, not S=O or P=O */
+        if (a->elem == 6 && (y->elem == 8 || y->elem == 7 || y->elem == 16))
+            return 0; /* C=O in pyridones, not S=O or P=O */
         return -1;
     }
-    int z = a->elem - a->charge;
     int bonds = sum + a->total_h;
     switch (a->elem) {
     case 6:
@@ -665,38 +675,24 @@ static int pi_electrons(const as_mol *m, int i, const char *inring, const char *
     case 16:
     case 34:
     case 52:
-        if (a->charge == 0 && bonds == 2)
-            return 2;
-        return -1;
+        return a->charge == 0 && bonds == 2 ? 2 : -1;
     case 5:
-        if (a->charge == 0 && bonds == 3)
-            return 0;
-        if (a->charge == -1 && bonds == 4)
-            return -1;
-        return -1;
+        return a->charge == 0 && bonds == 3 ? 0 : -1;
     default:
-        (void)z;
         return -1;
     }
 }
 
-/* Tests one set of rings (their atoms in inring) for 4n+2. */
-static int ring_set_aromatic(const as_mol *m, const int *atoms, int n, char *inring,
-                             const char *arom)
+/* Tests one set of atoms (a ring or a union of fused rings) for 4n+2. */
+static int ring_set_aromatic(const int *atoms, int n, const int *pi)
 {
     int total = 0;
-    for (int k = 0; k < n; k++)
-        inring[atoms[k]] = 1;
-    int ok = 1;
-    for (int k = 0; k < n && ok; k++) {
-        int e = pi_electrons(m, atoms[k], inring, arom);
-        if (e < 0)
-            ok = 0;
-        total += e;
+    for (int k = 0; k < n; k++) {
+        if (pi[atoms[k]] < 0)
+            return 0;
+        total += pi[atoms[k]];
     }
-    for (int k = 0; k < n; k++)
-        inring[atoms[k]] = 0;
-    return ok && total % 4 == 2;
+    return total % 4 == 2;
 }
 
 static as_status pass_aromatic(as_mol *m, as_error *err)
@@ -707,67 +703,61 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
         m->bonds[b].aromatic = 0;
     if (m->nrings == 0)
         return AS_OK;
-    char *inring = calloc((size_t)m->natoms, 1);
-    char *arom = calloc((size_t)m->natoms, 1);
+    int n = m->natoms;
+    int *sys = malloc((size_t)n * sizeof(int));
+    int *pi = malloc((size_t)n * sizeof(int));
     char *ring_done = calloc((size_t)m->nrings, 1);
-    int *buf = malloc((size_t)(m->natoms + 1) * sizeof(int));
-    if (!inring || !arom || !ring_done || !buf) {
-        free(inring);
-        free(arom);
+    int *buf = malloc((size_t)(n + 1) * sizeof(int));
+    char *seen = calloc((size_t)n, 1);
+    if (!sys || !pi || !ring_done || !buf || !seen) {
+        free(sys);
+        free(pi);
         free(ring_done);
         free(buf);
+        free(seen);
         return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
     }
-    /* Single rings first, then unions of two and three fused rings, repeated while new
-     * rings become aromatic (a double bond into an aromatic neighbour counts 1 e). */
-    int changed = 1;
-    while (changed) {
-        changed = 0;
-        for (int r = 0; r < m->nrings; r++) {
-            if (ring_done[r])
-                continue;
-            int s = m->ring_start[r], e = m->ring_start[r + 1];
-            if (e - s > 24)
-                continue;
-            if (ring_set_aromatic(m, m->ring_atoms + s, e - s, inring, arom)) {
-                ring_done[r] = 1;
-                changed = 1;
-                for (int k = s; k < e; k++)
-                    arom[m->ring_atoms[k]] = 1;
-            }
+    for (int i = 0; i < n; i++)
+        sys[i] = i;
+    for (int b = 0; b < m->nbonds; b++)
+        if (m->bonds[b].ring_size) {
+            int x = find_root(sys, m->bonds[b].a), y = find_root(sys, m->bonds[b].b);
+            if (x != y)
+                sys[x] = y;
         }
-        for (int r1 = 0; r1 < m->nrings; r1++) {
-            for (int r2 = r1 + 1; r2 < m->nrings; r2++) {
-                if (ring_done[r1] && ring_done[r2])
-                    continue;
-                int s1 = m->ring_start[r1], e1 = m->ring_start[r1 + 1];
-                int s2 = m->ring_start[r2], e2 = m->ring_start[r2 + 1];
-                if (e1 - s1 + e2 - s2 > 24)
-                    continue;
-                /* fused: share at least two atoms (a bond) */
-                int shared = 0, n = 0;
-                for (int k = s1; k < e1; k++)
-                    buf[n++] = m->ring_atoms[k];
-                for (int k = s2; k < e2; k++) {
-                    int x = m->ring_atoms[k], dup = 0;
-                    for (int j = s1; j < e1; j++)
-                        if (m->ring_atoms[j] == x)
-                            dup = 1;
-                    if (dup)
-                        shared++;
-                    else
-                        buf[n++] = x;
-                }
-                if (shared < 2)
-                    continue;
-                if (ring_set_aromatic(m, buf, n, inring, arom)) {
-                    if (!ring_done[r1] || !ring_done[r2])
-                        changed = 1;
-                    ring_done[r1] = ring_done[r2] = 1;
-                    for (int k = 0; k < n; k++)
-                        arom[buf[k]] = 1;
-                }
+    for (int i = 0; i < n; i++)
+        sys[i] = m->atoms[i].ring_size ? find_root(sys, i) : -1;
+    for (int i = 0; i < n; i++)
+        pi[i] = pi_electrons(m, i, sys);
+    /* single rings, then unions of two fused rings (sharing a bond) */
+    for (int r = 0; r < m->nrings; r++) {
+        int s = m->ring_start[r], e = m->ring_start[r + 1];
+        if (e - s <= 24 && ring_set_aromatic(m->ring_atoms + s, e - s, pi))
+            ring_done[r] = 1;
+    }
+    for (int r1 = 0; r1 < m->nrings; r1++) {
+        for (int r2 = r1 + 1; r2 < m->nrings; r2++) {
+            if (ring_done[r1] && ring_done[r2])
+                continue;
+            int s1 = m->ring_start[r1], e1 = m->ring_start[r1 + 1];
+            int s2 = m->ring_start[r2], e2 = m->ring_start[r2 + 1];
+            if (e1 - s1 + e2 - s2 > 24)
+                continue;
+            int shared = 0, k = 0;
+            for (int j = s1; j < e1; j++) {
+                buf[k++] = m->ring_atoms[j];
+                seen[m->ring_atoms[j]] = 1;
             }
+            for (int j = s2; j < e2; j++) {
+                if (seen[m->ring_atoms[j]])
+                    shared++;
+                else
+                    buf[k++] = m->ring_atoms[j];
+            }
+            for (int j = s1; j < e1; j++)
+                seen[m->ring_atoms[j]] = 0;
+            if (shared == 2 && ring_set_aromatic(buf, k, pi))
+                ring_done[r1] = ring_done[r2] = 1;
         }
     }
     for (int r = 0; r < m->nrings; r++) {
@@ -782,10 +772,11 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
                 m->bonds[b].aromatic = 1;
         }
     }
-    free(inring);
-    free(arom);
+    free(sys);
+    free(pi);
     free(ring_done);
     free(buf);
+    free(seen);
     return AS_OK;
 }
 
@@ -854,6 +845,23 @@ static as_status pass_stereo(as_mol *m, as_error *err)
             m->dbs[i] = m->dbs[--m->ndbs];
     }
     return AS_OK;
+}
+
+/* ---------------------------------------------------------------- warnings */
+
+int as_perceive_suspect_atom(const as_mol *m)
+{
+    for (int i = 0; i < m->natoms; i++) {
+        const as_atom *a = &m->atoms[i];
+        if (a->elem != 7 || a->charge != 0 || a->bracket || a->aromatic || a->degree != 4)
+            continue;
+        int single = 1;
+        for (int k = 0; k < a->degree; k++)
+            single &= m->bonds[a->nbond[k]].order == AS_BOND_SINGLE;
+        if (single)
+            return i;
+    }
+    return -1;
 }
 
 /* ---------------------------------------------------------------- driver */

@@ -194,6 +194,7 @@ static const char *const regio_names[] = {"cation", "radical", "borane", "none",
 static const char *const stereo_names[] = {"none", "syn", "anti"};
 static const char *const end_names[] = {"less_substituted", "more_substituted"};
 static const char *const workup_names[] = {"reductive", "oxidative"};
+static const char *const facial_names[] = {"exo", "not_predicted"};
 static const char *const class_names[] = {
     "monosubstituted", "1,1-disubstituted", "cis-1,2-disubstituted",
     "trans-1,2-disubstituted", "trisubstituted", "tetrasubstituted", "styrene",
@@ -535,6 +536,7 @@ static const keyspec rule_spec[] = {
     {"bulk_source", K_STR, 0},  {"intermediate", K_STR, 1},  {"conditions", K_STR, 1},
     {"priority", K_INT, 1},     {"unless", K_ARR, 0},        {"hints", K_ARR, 0},
     {"variants", K_ARR, 1},     {"figures", K_ARR, 0},       {"hazards", K_ARR, 1},
+    {"facial", K_STR, 0},       {"facial_source", K_STR, 0},
 };
 
 /* Rule ids are used as words in output and on command lines: [a-z0-9_], letter first. */
@@ -596,6 +598,18 @@ static as_status load_rule(const vctx *c, const cJSON *root, as_rule_int *r)
     }
     pub->intermediate = get_str(root, "intermediate");
     pub->conditions = get_str(root, "conditions");
+    if (cJSON_GetObjectItemCaseSensitive(root, "facial")) {
+        st = check_enum(c, root, "$", "facial", facial_names, 2, &e);
+        if (st != AS_OK)
+            return st;
+        if (!get_str(root, "facial_source"))
+            return fail(c, "$", "missing required key \"facial_source\" (\"facial\" needs a "
+                                "source or a reason)");
+        pub->facial = facial_names[e];
+        pub->facial_source = get_str(root, "facial_source");
+    } else if (get_str(root, "facial_source")) {
+        return fail(c, "$.facial_source", "only allowed together with \"facial\"");
+    }
     r->priority = (int)cJSON_GetObjectItemCaseSensitive(root, "priority")->valuedouble;
 
     st = compile_list(c, root, "$", "unless", 0, &r->unless, &r->nunless);

@@ -45,6 +45,10 @@ static const double hia_by_degree[4] = {312.0, 273.0, 246.0, 231.0};
 #define HIA_ALPHA_NO2 (30.0)   /* α-NO2 (estimate) */
 #define HIA_ALPHA_SO2 (25.0)   /* α-SO2R (estimate) */
 #define HIA_BETA_X (6.0)       /* halogen on a neighbouring sp3 carbon: inductive (estimate) */
+#define HIA_BETA_O (3.0)       /* OH/OR on a neighbouring sp3 carbon (allylic alcohols and
+                                  ethers): inductive, scaled from HIA_BETA_X by the inductive
+                                  constants sigma_I of OH (~0.25) and Cl (~0.47) (estimate;
+                                  sigma_I values from memory) */
 
 /* Brown–Okamoto: log(k/k0) = ρσ+ with ρ = −4.54 for cumyl chloride solvolysis in 90%
  * aqueous acetone at 25 °C (Brown & Okamoto, J. Am. Chem. Soc. 1958, 80, 4979; ρ from
@@ -179,6 +183,16 @@ static int classify_nbr(const as_mol *m, int c, int x, int sat)
     }
 }
 
+/* 1 when sp3 carbon x carries a singly bonded oxygen (OH, OR, OC(=O)R). */
+static int carries_oxygen(const as_mol *m, int x)
+{
+    for (int i = 0; i < m->atoms[x].degree; i++)
+        if (m->atoms[m->atoms[x].nbr[i]].elem == 8 &&
+            m->bonds[m->atoms[x].nbond[i]].order == AS_BOND_SINGLE)
+            return 1;
+    return 0;
+}
+
 /* 1 when sp3 carbon x carries Cl, Br or I. */
 static int carries_heavy_halogen(const as_mol *m, int x)
 {
@@ -310,6 +324,8 @@ double as_sites_cation_hia(const as_mol *m, int center, int ignore, int sat,
             ncarb++;
             if (carries_heavy_halogen(m, x))
                 corr += HIA_BETA_X;
+            else if (carries_oxygen(m, x))
+                corr += HIA_BETA_O;
             break;
         case NB_ARYL: {
             char note[48] = "";
@@ -608,6 +624,121 @@ static void classify_site(as_site *s)
     }
 }
 
+/* ---------------------------------------------------------------- bridged rings */
+
+/* The only ring neighbour of alkene carbon c besides its partner q, or -1 when there is none
+ * or more than one. */
+static int ring_partner(const as_mol *m, int c, int q)
+{
+    int found = -1;
+    for (int i = 0; i < m->atoms[c].degree; i++) {
+        int n = m->atoms[c].nbr[i];
+        if (n == q || m->bonds[m->atoms[c].nbond[i]].ring_size == 0)
+            continue;
+        if (found >= 0)
+            return -1;
+        found = n;
+    }
+    return found;
+}
+
+/* Shortest path from a to b over ring bonds that avoids atoms marked in `block`. Writes the
+ * atoms strictly between a and b into mid[] (in order from a) and returns how many, or -1
+ * when there is no such path. prev and queue are scratch arrays of natoms ints. */
+static int bridge_path(const as_mol *m, int a, int b, const unsigned char *block, int *prev,
+                       int *queue, int *mid, int cap)
+{
+    for (int i = 0; i < m->natoms; i++)
+        prev[i] = -2;
+    int head = 0, tail = 0;
+    queue[tail++] = a;
+    prev[a] = -1;
+    while (head < tail && prev[b] == -2) {
+        int x = queue[head++];
+        for (int i = 0; i < m->atoms[x].degree; i++) {
+            int y = m->atoms[x].nbr[i];
+            if (prev[y] != -2 || (block[y] && y != b) ||
+                m->bonds[m->atoms[x].nbond[i]].ring_size == 0)
+                continue;
+            if (x == a && y == b)
+                continue; /* a direct bond is not a bridge with atoms */
+            prev[y] = x;
+            queue[tail++] = y;
+        }
+    }
+    if (prev[b] == -2)
+        return -1;
+    int n = 0;
+    for (int x = prev[b]; x != a; x = prev[x])
+        n++;
+    if (n > cap)
+        return -1;
+    int k = n;
+    for (int x = prev[b]; x != a; x = prev[x])
+        mid[--k] = x;
+    return n;
+}
+
+/* Largest bridge we describe; longer ones are reported as bridged without detail. */
+#define MAX_BRIDGE 12
+
+/* Fills the facial fields of site s: is its C=C the two-atom bridge between two bridgeheads,
+ * and is the system a norbornene (bicyclo[2.2.1], one-carbon bridge CH2)? */
+static as_status find_face(const as_mol *m, as_site *s, as_error *err)
+{
+    s->face = AS_FACE_NONE;
+    for (int k = 0; k < 2; k++)
+        s->bridgehead[k] = s->short_bridge[k] = s->long_bridge[k] = -1;
+    s->bridge_len[0] = s->bridge_len[1] = 0;
+    if (s->ring_size == 0)
+        return AS_OK;
+    int c1 = s->end[0].atom, c2 = s->end[1].atom;
+    int p = ring_partner(m, c1, c2), q = ring_partner(m, c2, c1);
+    if (p < 0 || q < 0 || p == q)
+        return AS_OK;
+    unsigned char *block = calloc((size_t)m->natoms, 1);
+    int *prev = malloc((size_t)m->natoms * sizeof *prev);
+    int *queue = malloc((size_t)m->natoms * sizeof *queue);
+    if (!block || !prev || !queue) {
+        free(block);
+        free(prev);
+        free(queue);
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory finding C=C sites");
+    }
+    int mid1[MAX_BRIDGE], mid2[MAX_BRIDGE];
+    block[c1] = block[c2] = 1;
+    int n1 = bridge_path(m, p, q, block, prev, queue, mid1, MAX_BRIDGE);
+    int n2 = -1;
+    if (n1 >= 1) {
+        for (int i = 0; i < n1; i++)
+            block[mid1[i]] = 1;
+        n2 = bridge_path(m, p, q, block, prev, queue, mid2, MAX_BRIDGE);
+    }
+    free(block);
+    free(prev);
+    free(queue);
+    if (n1 < 1 || n2 < 1)
+        return AS_OK; /* not a bridge between two bridgeheads */
+    s->face = AS_FACE_UNCLEAR;
+    s->bridgehead[0] = p;
+    s->bridgehead[1] = q;
+    s->short_bridge[0] = mid1[0];
+    s->short_bridge[1] = mid1[n1 - 1];
+    s->long_bridge[0] = mid2[0];
+    s->long_bridge[1] = mid2[n2 - 1];
+    s->bridge_len[0] = n1;
+    s->bridge_len[1] = n2;
+    /* Norbornene type: bicyclo[2.2.1] with the C=C in a two-carbon bridge and a CH2 as the
+     * one-carbon bridge; both bridgeheads sp3 with at most one further substituent. */
+    const as_atom *mb = &m->atoms[mid1[0]];
+    if (n1 == 1 && n2 == 2 && mb->elem == 6 && mb->degree == 2 && mb->total_h == 2 &&
+        m->atoms[p].degree + m->atoms[p].total_h == 4 &&
+        m->atoms[q].degree + m->atoms[q].total_h == 4 && as_mol_bond_order_sum(m, p) ==
+        m->atoms[p].degree && as_mol_bond_order_sum(m, q) == m->atoms[q].degree)
+        s->face = AS_FACE_EXO;
+    return AS_OK;
+}
+
 /* ---------------------------------------------------------------- public */
 
 as_status as_sites_find(const as_mol *m, as_sites **out, as_error *err)
@@ -652,6 +783,11 @@ as_status as_sites_find(const as_mol *m, as_sites **out, as_error *err)
         st->conj_site = -1;
         st->acceptor_end = st->end[0].acceptor ? 0 : st->end[1].acceptor ? 1 : -1;
         classify_site(st);
+        as_status fst = find_face(m, st, err);
+        if (fst != AS_OK) {
+            as_sites_free(s);
+            return fst;
+        }
     }
     /* Link conjugated pairs (diene units). */
     for (int i = 0; i < s->n; i++) {

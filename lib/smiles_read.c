@@ -29,6 +29,7 @@ typedef struct ring_open {
 typedef struct written_order {
     int n;
     int has_from;   /* 1 when item[0] is the atom this one was reached from */
+    int nclosures;  /* ring-closure digits written on this atom */
     int item[AS_MAX_DEGREE + 1]; /* atom index, AS_IMPLICIT_H, or -2 - ring number (pending) */
 } written_order;
 
@@ -386,6 +387,23 @@ static as_status make_bond(parser *p, int a, int b, int order, char dir, int dir
 
 /* ---------------------------------------------------------------- stereo conversion */
 
+/* A three-coordinate centre without H (amine N, phosphine P, sulfonium S) written with
+ * exactly one ring-closure digit and only single bonds is read with one more swap: the
+ * convention RDKit follows (and therefore most SMILES in circulation), kept here so that a
+ * bridgehead amine such as Tröger's base means the same to both. The writer applies the same
+ * rule, so our own output reads back unchanged. */
+static int lone_pair_flip(const as_mol *m, int a, int nclosures)
+{
+    if (nclosures != 1 || m->atoms[a].degree != 3)
+        return 0;
+    for (int k = 0; k < m->atoms[a].degree; k++) {
+        int o = m->bonds[m->atoms[a].nbond[k]].order;
+        if (o != AS_BOND_SINGLE)
+            return 0;
+    }
+    return 1;
+}
+
 static as_status build_tetra(parser *p)
 {
     for (int i = 0; i < p->m->natoms; i++) {
@@ -406,6 +424,8 @@ static as_status build_tetra(parser *p)
             memmove(&items[pos + 1], &items[pos], (size_t)(n - pos) * sizeof(int));
             items[pos] = AS_IMPLICIT_H;
             n = 4;
+            if (lone_pair_flip(p->m, i, o->nclosures))
+                p->chiral[i] = (char)(p->chiral[i] == AS_CCW ? AS_CW : AS_CCW);
         }
         if (n != 4 || hs > 1)
             continue; /* not a tetrahedral centre; the mark carries no meaning */
@@ -522,6 +542,7 @@ static as_status parse_body(parser *p)
             at->bracket = a.bracket;
             at->src_offset = (int)off;
             p->order[idx].n = 0;
+            p->order[idx].nclosures = 0;
             p->order[idx].has_from = prev >= 0;
             p->chiral[idx] = (char)a.chiral;
             if (prev >= 0) {
@@ -581,6 +602,7 @@ static as_status parse_body(parser *p)
                 r->bond_off = pending_off;
                 r->slot = p->order[prev].n;
                 order_push(p, prev, -2 - num);
+                p->order[prev].nclosures++;
                 p->open_rings++;
             } else {
                 int a = r->atom;
@@ -630,6 +652,7 @@ static as_status parse_body(parser *p)
                     return st;
                 p->order[a].item[r->slot] = prev;
                 order_push(p, prev, a);
+                p->order[prev].nclosures++;
                 r->atom = -1;
                 p->open_rings--;
             }

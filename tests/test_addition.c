@@ -257,6 +257,105 @@ static void addition_should_keep_existing_stereocentre(void **state)
     done(&x);
 }
 
+/* Exo face of norbornene: exo-norborneol (Brown & Zweifel, J. Am. Chem. Soc. 1961, 83, 2544,
+ * from memory); the exo geometry of this SMILES is checked by RDKit embedding in
+ * tests/check_stereo_cip.py. Both orientations give the two enantiomers. */
+static void addition_should_put_borane_on_exo_face_of_norbornene(void **state)
+{
+    (void)state;
+    as_rule r = rule(AS_REGIO_BORANE, AS_ADD_SYN, 0, 0, &v_bh3);
+    r.facial = "exo";
+    r.facial_source = "test";
+    run x = go("C1CC2CC1C=C2", &r, &v_bh3);
+    assert_int_equal(x.sites->site[0].face, AS_FACE_EXO);
+    assert_int_equal(x.sites->site[0].bridge_len[0], 1);
+    assert_int_equal(x.sites->site[0].bridge_len[1], 2);
+    assert_int_equal(x.list->n, 2);
+    for (int i = 0; i < 2; i++) {
+        assert_true(x.list->v[i].exo);
+        assert_true(x.list->v[i].marked);
+        assert_int_equal(x.list->v[i].stereo, AS_STEREO_RACEMIC);
+    }
+    expect_m(&x, 0, "O[C@@H]1C[C@H]2CC[C@@H]1C2", 1);
+    /* the second orientation is the mirror image of the first */
+    char *a = NULL, *b = NULL;
+    as_error err;
+    assert_int_equal(as_canon_smiles(x.list->v[0].mol, NULL, &a, &err), AS_OK);
+    assert_int_equal(as_canon_smiles(x.list->v[1].mol, NULL, &b, &err), AS_OK);
+    assert_string_not_equal(a, b);
+    expect_m(&x, 1, a, 1);
+    free(a);
+    free(b);
+    done(&x);
+}
+
+/* exo-2,3-epoxynorbornane is meso (Carey & Sundberg, Part A, Ch. 2, from memory). */
+static void addition_should_give_meso_exo_epoxide_of_norbornene(void **state)
+{
+    (void)state;
+    as_rule r = rule(AS_REGIO_NONE, AS_ADD_SYN, 0, 0, &v_epox);
+    r.facial = "exo";
+    r.facial_source = "test";
+    run x = go("C1CC2CC1C=C2", &r, &v_epox);
+    expect(&x, 0, "C1C[C@@H]2C[C@H]1[C@H]1O[C@@H]21");
+    assert_int_equal(x.list->v[0].stereo, AS_STEREO_MESO);
+    done(&x);
+}
+
+/* Without the rule key the face is not chosen: the bridgeheads make the new centres'
+ * configuration open (diastereomers). */
+static void addition_should_leave_face_open_without_rule_key(void **state)
+{
+    (void)state;
+    as_rule r = rule(AS_REGIO_NONE, AS_ADD_SYN, 0, 0, &v_epox);
+    run x = go("C1CC2CC1C=C2", &r, &v_epox);
+    assert_false(x.list->v[0].exo);
+    assert_int_equal(x.list->v[0].stereo, AS_STEREO_DIASTEREOMERS);
+    done(&x);
+}
+
+/* Bicyclo[2.2.2]oct-2-ene: two equal bridges, no facial preference modelled; the epoxide is
+ * still meso because the bridgeheads do not become stereocentres. */
+static void addition_should_not_claim_exo_face_in_bicyclooctene(void **state)
+{
+    (void)state;
+    as_rule r = rule(AS_REGIO_NONE, AS_ADD_SYN, 0, 0, &v_epox);
+    r.facial = "exo";
+    r.facial_source = "test";
+    run x = go("C1CC2CCC1C=C2", &r, &v_epox);
+    assert_int_equal(x.sites->site[0].face, AS_FACE_UNCLEAR);
+    assert_false(x.list->v[0].exo);
+    assert_int_equal(x.list->v[0].stereo, AS_STEREO_MESO);
+    done(&x);
+}
+
+/* An enantiopure bridgehead fixes the frame: the exo product keeps it (single). */
+static void addition_should_keep_marked_bridgehead_of_norbornene(void **state)
+{
+    (void)state;
+    as_rule r = rule(AS_REGIO_NONE, AS_ADD_SYN, 0, 0, &v_os);
+    r.facial = "exo";
+    r.facial_source = "test";
+    /* 1-methylnorbornene-type substrate made chiral by a 2-methyl group */
+    run x = go("C[C@]12CC[C@H](C1)C=C2C", &r, &v_os);
+    assert_int_equal(x.sites->site[0].face, AS_FACE_EXO);
+    assert_true(x.list->v[0].exo);
+    assert_int_equal(x.list->v[0].stereo, AS_STEREO_SINGLE);
+    done(&x);
+}
+
+/* No 1,2-shift to a bridgehead: the 1-norbornyl cation cannot become planar (Bartlett &
+ * Knox, J. Am. Chem. Soc. 1939, 61, 3184, from memory). */
+static void addition_should_not_shift_cation_to_bridgehead(void **state)
+{
+    (void)state;
+    as_rule r = rule(AS_REGIO_CATION, AS_ADD_NONE, 1, 1, &v_hbr);
+    run x = go("C1CC2CC1C=C2", &r, &v_hbr);
+    for (int i = 0; i < x.list->n; i++)
+        assert_false(x.list->v[i].rearranged);
+    done(&x);
+}
+
 static void addition_should_not_edit_substrate(void **state)
 {
     (void)state;
@@ -301,6 +400,12 @@ int main(void)
         cmocka_unit_test(addition_should_add_conjugately_to_acrylic_acid),
         cmocka_unit_test(addition_should_flag_alike_ends_of_hex_2_ene),
         cmocka_unit_test(addition_should_keep_existing_stereocentre),
+        cmocka_unit_test(addition_should_put_borane_on_exo_face_of_norbornene),
+        cmocka_unit_test(addition_should_give_meso_exo_epoxide_of_norbornene),
+        cmocka_unit_test(addition_should_leave_face_open_without_rule_key),
+        cmocka_unit_test(addition_should_not_claim_exo_face_in_bicyclooctene),
+        cmocka_unit_test(addition_should_keep_marked_bridgehead_of_norbornene),
+        cmocka_unit_test(addition_should_not_shift_cation_to_bridgehead),
         cmocka_unit_test(addition_should_not_edit_substrate),
         cmocka_unit_test(addition_should_reject_unreadable_group_with_rule_error),
     };

@@ -192,6 +192,58 @@ static void outcome_should_refuse_substrate_without_alkene(void **state)
     as_mol_free(m);
 }
 
+/* Norbornene hydroboration: one racemic product, exo (Brown & Zweifel, J. Am. Chem. Soc.
+ * 1961, 83, 2544, from memory). */
+static void outcome_should_give_one_racemic_exo_alcohol_for_norbornene(void **state)
+{
+    (void)state;
+    as_outcome *o = predict("C1CC2CC1C=C2", "1. BH3-THF; 2. H2O2, NaOH", NULL);
+    assert_int_equal(o->nproducts, 1);
+    assert_int_equal(o->products[0].role, AS_PRODUCT_MAJOR);
+    assert_true(o->products[0].share > 99.0);
+    assert_int_equal(o->products[0].stereo, AS_STEREO_RACEMIC);
+    assert_string_equal(o->products[0].face, "exo");
+    assert_true(o->products[0].enantiomers_merged);
+    assert_true(rationale_has(o, "exo face"));
+    assert_true(rationale_has(o, "Brown & Zweifel"));
+    assert_false(rationale_has(o, "two alcohols form in similar amounts"));
+    as_outcome_free(o);
+}
+
+/* Br2 and norbornene rearrange (Wagner-Meerwein): the rule says it is not predicted. */
+static void outcome_should_say_norbornene_bromination_is_not_predicted(void **state)
+{
+    (void)state;
+    as_outcome *o = predict("C1CC2CC1C=C2", "Br2, CH2Cl2", NULL);
+    assert_string_equal(o->products[0].face, "not predicted");
+    assert_true(rationale_has(o, "not predicted"));
+    assert_true(rationale_has(o, "Wagner-Meerwein"));
+    assert_true(o->ncautions >= 1);
+    as_outcome_free(o);
+}
+
+/* Each rule of the toolbox shows its cautions with a prediction (issue 6). */
+static void outcome_should_carry_cautions_of_each_toolbox_rule(void **state)
+{
+    (void)state;
+    static const struct {
+        const char *reagents, *word;
+    } c[] = {
+        {"Br2, CH2Cl2", "Bromine"},        {"NBS, H2O", "NBS"},
+        {"mCPBA", "Peroxy acids"},         {"OsO4 (cat.), NMO", "Osmium tetroxide"},
+        {"H2, Pd/C", "Hydrogen"},          {"1. O3; 2. Me2S", "Ozone"},
+    };
+    for (size_t i = 0; i < sizeof c / sizeof c[0]; i++) {
+        as_outcome *o = predict("C1=CCCCC1", c[i].reagents, NULL);
+        int found = 0;
+        for (int k = 0; k < o->ncautions; k++)
+            found |= strstr(o->cautions[k], c[i].word) != NULL;
+        if (!found)
+            fail_msg("%s: no caution naming %s", c[i].reagents, c[i].word);
+        as_outcome_free(o);
+    }
+}
+
 static void outcome_should_render_json_with_required_keys(void **state)
 {
     (void)state;
@@ -205,7 +257,8 @@ static void outcome_should_render_json_with_required_keys(void **state)
     assert_string_equal(cJSON_GetObjectItem(j, "reaction")->valuestring, "hx");
     cJSON *p = cJSON_GetArrayItem(cJSON_GetObjectItem(j, "products"), 0);
     assert_non_null(p);
-    const char *keys[] = {"smiles", "role", "share", "share_source", "stereo", "rearranged"};
+    const char *keys[] = {"smiles", "role", "share", "share_source", "stereo", "rearranged",
+                          "face"};
     for (size_t i = 0; i < sizeof keys / sizeof keys[0]; i++)
         assert_non_null(cJSON_GetObjectItem(p, keys[i]));
     assert_string_equal(cJSON_GetObjectItem(p, "role")->valuestring, "major");
@@ -227,6 +280,9 @@ int main(void)
         cmocka_unit_test(outcome_should_mark_rearranged_major_for_acid_hydration),
         cmocka_unit_test(outcome_should_not_shift_through_mercurinium),
         cmocka_unit_test(outcome_should_refuse_substrate_without_alkene),
+        cmocka_unit_test(outcome_should_give_one_racemic_exo_alcohol_for_norbornene),
+        cmocka_unit_test(outcome_should_say_norbornene_bromination_is_not_predicted),
+        cmocka_unit_test(outcome_should_carry_cautions_of_each_toolbox_rule),
         cmocka_unit_test(outcome_should_render_json_with_required_keys),
     };
     return cmocka_run_group_tests(tests, setup, teardown);

@@ -115,6 +115,17 @@ static void perceive_should_report_the_failed_pass(void **state)
     as_mol_free(m);
 }
 
+static void perceive_should_flag_neutral_four_bonded_nitrogen(void **state)
+{
+    (void)state;
+    as_mol *m = parse_ok("CN(C)(C)C"); /* valence 5 with one H: probably a missing charge */
+    assert_int_equal(as_perceive_suspect_atom(m), 1);
+    as_mol_free(m);
+    m = parse_ok("C[N+](C)(C)C");
+    assert_int_equal(as_perceive_suspect_atom(m), -1);
+    as_mol_free(m);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -123,6 +134,7 @@ int main(void)
         cmocka_unit_test(perceive_should_make_kekule_benzene_aromatic),
         cmocka_unit_test(perceive_should_drop_stereo_that_cannot_be_real),
         cmocka_unit_test(perceive_should_report_the_failed_pass),
+        cmocka_unit_test(perceive_should_flag_neutral_four_bonded_nitrogen),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -68,6 +68,8 @@ typedef struct as_adduct {
     int new_centres;      /* stereocentres created by the addition */
     int marked;           /* 1 when their relative configuration is written with @/@@ */
     int meso;             /* 1 when the product is achiral although it has stereocentres */
+    int exo;              /* 1 when the groups were placed on the exo face of a
+                             norbornene-type C=C (site face AS_FACE_EXO, rule facial "exo") */
 } as_adduct;
 
 typedef struct as_adducts {

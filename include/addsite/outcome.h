@@ -30,6 +30,11 @@ typedef struct as_predict_opts {
     double min_share;     /* products estimated below this percent are left out (default 0.5;
                              published minor products are always kept) */
     int max_products;     /* at most this many products (default 8) */
+    int rationale;        /* 1 (default): write the rationale sentences; 0: leave them out
+                             (nrationale = 0), for callers that never show them */
+    const char *substrate_smiles; /* the substrate's canonical SMILES (as_canon_smiles with
+                             default options) when the caller already has it, borrowed and
+                             copied; NULL (default): computed here */
 } as_predict_opts;
 
 void as_predict_opts_init(as_predict_opts *o);
@@ -58,6 +63,11 @@ typedef struct as_product {
                               first for this product */
     int first_atom;        /* 0-based substrate atom that took the rule's first group */
     int second_atom;       /* 0-based substrate atom that took the second group, or -1 */
+    const char *face;      /* face of attack on a bridged bicyclic C=C: "exo" (placed with
+                              @/@@), "not predicted", or "n/a" (no bridged ring system);
+                              a static string */
+    int enantiomers_merged;/* 1 when the two orientations gave the two enantiomers, listed
+                              as one racemic product */
 } as_product;
 
 typedef struct as_outcome {
@@ -93,7 +103,7 @@ void as_outcome_free(as_outcome *o);
  * one equivalent adds, or null), temperature_c, temperature_given, equivalents, mixture,
  * sites [{atoms, class, reacts, ends [{atom, cation_hia_kcal, cation_kind, radical_bde_kcal,
  * steric}]}], products [{smiles, role, share, share_source, share_published,
- * stereo, rearranged, regio, path}], rationale [], cautions []. Atom numbers are 1-based
+ * stereo, rearranged, regio, path, face}], rationale [], cautions []. Atom numbers are 1-based
  * positions in the input SMILES. Returns a new string in *out (caller frees with free());
  * pretty = 1 indents it. */
 as_status as_outcome_json(const as_outcome *o, int pretty, char **out, as_error *err);

@@ -32,6 +32,11 @@ enum {
  * that failed. */
 as_status as_perceive(as_mol *m, unsigned passes, unsigned *failed_pass, as_error *err);
 
+/* First atom that perception accepted but a chemist would query: a neutral N written with
+ * four single bonds (N(C)(C)(C)C reads as NH with valence 5: probably a missing charge,
+ * [N+]). Returns its index, or -1 when there is none. */
+int as_perceive_suspect_atom(const as_mol *m);
+
 /* Default valence list lookup (OpenSMILES): the smallest normal valence of elem that is
  * >= used, or -1 when used exceeds them all or elem is outside the organic subset. */
 int as_default_valence(int elem, int used);

@@ -82,6 +82,11 @@ typedef struct as_rule {
     int nhazards;
     const char *const *hazards;   /* one caution sentence each */
     const char *file;         /* file it was loaded from ("<embedded>/hx.json") */
+    const char *facial;       /* C=C in the two-carbon bridge of a bicyclo[2.2.1] system:
+                                 "exo" (the groups arrive from the exo face, syn to the
+                                 one-carbon bridge), "not_predicted" (facial_source says why),
+                                 or NULL (not stated: not predicted) */
+    const char *facial_source;/* citation for `facial`, or the reason it is not predicted */
 } as_rule;
 
 typedef struct as_rules as_rules;   /* opaque table */

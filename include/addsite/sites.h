@@ -42,6 +42,16 @@ typedef enum as_geometry {
     AS_GEOM_RING          /* C=C in a ring of fewer than 8 atoms: the ring bonds are cis */
 } as_geometry;
 
+/* Whether the ring system around a C=C makes one face clearly more open. */
+typedef enum as_face {
+    AS_FACE_NONE = 0,     /* not in a bridged ring system: no facial question is asked */
+    AS_FACE_EXO,          /* the two-carbon bridge of a bicyclo[2.2.1] system whose
+                             one-carbon bridge carries only H (norbornene type): the exo face,
+                             syn to the one-carbon bridge, is the open one */
+    AS_FACE_UNCLEAR       /* a bridge of another bridged bicyclic system (bicyclo[2.2.2],
+                             [3.2.1], a substituted one-carbon bridge, ...): not predicted */
+} as_face;
+
 /* One end carbon of a C=C. */
 typedef struct as_site_end {
     int atom;             /* 0-based atom index (1-based position in messages) */
@@ -78,6 +88,12 @@ typedef struct as_site {
                              "cis-1,2-disubstituted", "trans-1,2-disubstituted",
                              "1,2-disubstituted", "trisubstituted", "tetrasubstituted",
                              "ethylene"; styrenes "styrene" or "styrene:p-OMe" */
+    as_face face;         /* facial picture of a C=C that bridges two bridgeheads */
+    int bridgehead[2];    /* the bridgehead bonded to end[k].atom, or -1 (face NONE) */
+    int short_bridge[2];  /* bridgehead[k]'s neighbour in the shortest other bridge, -1 */
+    int long_bridge[2];   /* bridgehead[k]'s neighbour in the longer other bridge, -1 */
+    int bridge_len[2];    /* atoms in the shortest and the longer other bridge (1 and 2 for
+                             norbornene: bicyclo[2.2.1]); 0 when face is NONE */
 } as_site;
 
 typedef struct as_sites {

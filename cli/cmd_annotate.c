@@ -1,0 +1,1145 @@
+/* cmd_annotate.c — `addsite annotate`: one annotated output record per input record, in order.
+ * Owns: the annotate subcommand's arguments, the reader → workers → in-order writer pipeline
+ * (a bounded ring of in-flight records), progress and summary lines, exit status.
+ * Must not: hold chemistry (as_check_record resolves, predicts and judges every record).
+ *
+ * Threads. With -j 1 one thread reads, annotates and writes. With -j N a reader thread fills
+ * a ring of 16N slots, N workers annotate any filled slot, and the main thread writes slots in
+ * input order as they complete; the reader waits when the ring is full, so memory stays flat
+ * however long the input. Annotating a record depends on nothing but the record, the options
+ * and the read-only rule table, so the output is the same byte for byte for every N. */
+#include "addsite/io.h"
+#include "addsite/outcome.h"
+#include "addsite/rules.h"
+#include "addsite/workflow.h"
+#include "cli.h"
+
+#include <cjson/cJSON.h>
+#include <errno.h>
+#include <math.h>
+#include <pthread.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+#include <unistd.h>
+
+enum { POLICY_REPORT = 0, POLICY_STOP, POLICY_IGNORE };
+enum { ST_ANNOTATED = 0, ST_SKIPPED, ST_ERROR, ST_COUNT };
+static const char *const status_names[ST_COUNT] = {"annotated", "skipped", "error"};
+
+static void help(FILE *f)
+{
+    fputs("usage: addsite annotate [FILE|-] [options]\n"
+          "\n"
+          "Reads reaction records and writes exactly one output record per input record, in\n"
+          "input order, errors included: the predicted products and, when a product was\n"
+          "recorded, the check verdict (see 'addsite check --help'). Gzip input is read\n"
+          "directly; FILE '-' or none is standard input.\n"
+          "\n"
+          "Input\n"
+          "  --input-format F  auto (default), smiles, csv, tsv or jsonl. smiles: one\n"
+          "                    'reactants>agents>products [title]' or substrate SMILES per\n"
+          "                    line, optional TAB-separated reagent text and id\n"
+          "  --reaction-col C, --substrate-col C, --product-col C, --reagent-col C,\n"
+          "  --id-col C, --smiles-col C\n"
+          "                    CSV/TSV/JSON Lines columns by header name or 1-based index\n"
+          "                    (default: recognised header names)\n"
+          "  --reagents TEXT   reagents for records that name none (no reagent column, no\n"
+          "                    agents in the reaction SMILES)\n"
+          "  --max-record N    longest record in bytes (default 1048576)\n"
+          "Output\n"
+          "  --format F        jsonl (default), tsv or csv\n"
+          "  --keep-columns    carry every input column through after the output fields\n"
+          "  -o FILE           write to FILE (a temporary name, renamed when complete)\n"
+          "  -j N              N worker threads (default 1); output order is input order\n"
+          "  --on-error P      report (default): annotate everything, exit 3 when any record\n"
+          "                    failed; ignore: the same, exit 0; stop: end after the first\n"
+          "                    failed record (it is written), exit 1, -o FILE not kept\n"
+          "  --strict-stereo   stereo must be drawn exactly as the conditions fix it\n"
+          "  --no-memo         do not reuse the results of recent identical records (each\n"
+          "                    worker remembers 4096; the output is the same either way)\n"
+          "  --progress        progress line on stderr (default: when stderr is a terminal)\n"
+          "  -q, --quiet       no summary or progress on stderr\n"
+          "  --rules DIR       rule table directory\n"
+          "\n"
+          "Output fields: line, id, status (annotated, skipped, error), error {code, message,\n"
+          "line, column, field, offset}, substrate, reaction, reagents, reagent_source,\n"
+          "major, products, recorded, verdict, reason, notes.\n"
+          "Exit status: 0 done, 3 done but some records failed (--on-error report), 1 stopped\n"
+          "(--on-error stop) or the output could not be written, 2 usage error or unreadable\n"
+          "input.\n",
+          f);
+}
+
+static int usage_error(const char *msg, const char *arg)
+{
+    fprintf(stderr, "addsite annotate: %s%s%s\n", msg, arg ? " " : "", arg ? arg : "");
+    fputs("Try 'addsite annotate --help'.\n", stderr);
+    return 2;
+}
+
+/* ---------------------------------------------------------------- one slot */
+
+typedef struct slot {
+    int state;              /* 0 free, 1 read, 2 being annotated, 3 done */
+    /* input, copied from the reader's record */
+    long line;
+    int skipped;
+    char *skip_reason;
+    as_error rec_err;       /* reader error (code != AS_OK) */
+    char *reaction, *substrate, *product, *reagents, *id;
+    long col_reaction, col_substrate, col_product, col_reagents; /* 1-based, 0 unknown */
+    size_t ncols;
+    char **names, **values;
+    char warning[192];
+    /* output */
+    int status;
+    as_error err;
+    const char *err_field;
+    long err_column;
+    int has_verdict;
+    as_verdict verdict;
+    char *substrate_out, *reaction_id, *reagents_out, *source, *major, *products_json,
+        *products_text, *recorded, *reason, *notes_json, *notes_text;
+} slot;
+
+static char *dup_or_null(const char *s)
+{
+    if (!s)
+        return NULL;
+    size_t n = strlen(s) + 1;
+    char *d = malloc(n);
+    if (d)
+        memcpy(d, s, n);
+    return d;
+}
+
+static void slot_clear(slot *s)
+{
+    free(s->skip_reason);
+    free(s->reaction);
+    free(s->substrate);
+    free(s->product);
+    free(s->reagents);
+    free(s->id);
+    for (size_t i = 0; i < s->ncols; i++) {
+        free(s->names[i]);
+        free(s->values[i]);
+    }
+    free(s->names);
+    free(s->values);
+    free(s->substrate_out);
+    free(s->reaction_id);
+    free(s->reagents_out);
+    free(s->source);
+    free(s->major);
+    free(s->products_json);
+    free(s->products_text);
+    free(s->recorded);
+    free(s->reason);
+    free(s->notes_json);
+    free(s->notes_text);
+    memset(s, 0, sizeof *s);
+}
+
+/* 1-based column of field value v in the raw line, 0 when it cannot be placed. */
+static long column_of(const as_record *r, const char *v)
+{
+    if (!v || !r->raw)
+        return 0;
+    if (v >= r->raw && v < r->raw + r->raw_len)
+        return (long)(v - r->raw) + 1;
+    size_t n = strlen(v);
+    if (!n || n > r->raw_len)
+        return 0;
+    for (size_t i = 0; i + n <= r->raw_len; i++)
+        if (!memcmp(r->raw + i, v, n))
+            return (long)i + 1;
+    return 0;
+}
+
+/* Copies what annotation needs out of the reader's record; -1 when out of memory. */
+static int slot_fill(slot *s, const as_record *r, int keep_columns)
+{
+    s->line = r->line;
+    s->skipped = r->skipped;
+    s->rec_err = r->err;
+    int bad = 0;
+#define DUP(dst, src)                                                                          \
+    do {                                                                                       \
+        if ((src) && !((dst) = dup_or_null(src)))                                              \
+            bad = 1;                                                                           \
+    } while (0)
+    DUP(s->skip_reason, r->skip_reason);
+    DUP(s->reaction, r->reaction);
+    DUP(s->substrate, r->substrate);
+    DUP(s->product, r->product);
+    DUP(s->reagents, r->reagents);
+    DUP(s->id, r->id);
+    s->col_reaction = column_of(r, r->reaction);
+    s->col_substrate = column_of(r, r->substrate);
+    s->col_product = column_of(r, r->product);
+    s->col_reagents = column_of(r, r->reagents);
+    memcpy(s->warning, r->warning, sizeof s->warning);
+    if (keep_columns && r->ncols) {
+        s->names = calloc(r->ncols, sizeof *s->names);
+        s->values = calloc(r->ncols, sizeof *s->values);
+        if (!s->names || !s->values)
+            return -1;
+        s->ncols = r->ncols;
+        for (size_t i = 0; i < r->ncols; i++) {
+            DUP(s->names[i], r->col_names[i]);
+            DUP(s->values[i], r->col_values[i]);
+        }
+    }
+#undef DUP
+    s->state = 1;
+    return bad ? -1 : 0;
+}
+
+/* ---------------------------------------------------------------- annotating */
+
+typedef struct config {
+    const as_rules *rules;
+    as_check_opts opts;
+    const char *default_reagents;
+    as_format out_format;
+    int keep_columns;
+    int memo;               /* 1: each worker keeps a record memo */
+} config;
+
+static char *products_json(const as_outcome *o)
+{
+    cJSON *a = cJSON_CreateArray();
+    if (!a)
+        return NULL;
+    int ok = 1;
+    for (int i = 0; ok && o && i < o->nproducts; i++) {
+        const as_product *p = &o->products[i];
+        cJSON *e = cJSON_CreateObject();
+        ok &= e != NULL && cJSON_AddItemToArray(a, e);
+        if (!ok)
+            break;
+        ok &= cJSON_AddStringToObject(e, "smiles", p->smiles) != NULL;
+        ok &= cJSON_AddStringToObject(e, "role", as_product_role_name(p->role)) != NULL;
+        ok &= cJSON_AddNumberToObject(e, "share", p->share) != NULL;
+        ok &= cJSON_AddBoolToObject(e, "share_published", p->share_published) != NULL;
+        ok &= cJSON_AddStringToObject(e, "stereo", as_stereo_name(p->stereo)) != NULL;
+        ok &= cJSON_AddStringToObject(e, "regio", p->regio) != NULL;
+        ok &= cJSON_AddBoolToObject(e, "rearranged", p->rearranged) != NULL;
+    }
+    char *s = ok ? cJSON_PrintUnformatted(a) : NULL;
+    cJSON_Delete(a);
+    return s;
+}
+
+/* "SMILES major 94%; SMILES minor 6%" for TSV/CSV. */
+static char *products_text(const as_outcome *o)
+{
+    size_t cap = 1;
+    for (int i = 0; o && i < o->nproducts; i++)
+        cap += strlen(o->products[i].smiles) + 64;
+    char *s = malloc(cap);
+    if (!s)
+        return NULL;
+    size_t used = 0;
+    s[0] = '\0';
+    for (int i = 0; o && i < o->nproducts; i++) {
+        const as_product *p = &o->products[i];
+        int n = snprintf(s + used, cap - used, "%s%s %s %.1f%%%s", i ? "; " : "", p->smiles,
+                         as_product_role_name(p->role), p->share,
+                         p->rearranged ? " rearranged" : "");
+        if (n > 0)
+            used += (size_t)n;
+    }
+    return s;
+}
+
+static int notes_out(slot *s, const char *const *notes, int n)
+{
+    cJSON *a = cJSON_CreateArray();
+    if (!a)
+        return -1;
+    size_t cap = 1;
+    for (int i = 0; i < n; i++) {
+        cJSON_AddItemToArray(a, cJSON_CreateString(notes[i]));
+        cap += strlen(notes[i]) + 3;
+    }
+    s->notes_json = cJSON_PrintUnformatted(a);
+    cJSON_Delete(a);
+    s->notes_text = malloc(cap);
+    if (!s->notes_json || !s->notes_text)
+        return -1;
+    s->notes_text[0] = '\0';
+    for (int i = 0; i < n; i++) {
+        if (i)
+            strcat(s->notes_text, " | ");
+        strcat(s->notes_text, notes[i]);
+    }
+    return 0;
+}
+
+static void set_error(slot *s, as_status code, const char *field, long column, const char *fmt,
+                      const char *arg)
+{
+    s->status = ST_ERROR;
+    as_error_clear(&s->err);
+    s->err.code = code;
+    s->err.line = s->line;
+    s->err.column = column;
+    s->err_field = field;
+    snprintf(s->err.msg, sizeof s->err.msg, fmt, arg);
+}
+
+/* Annotates one slot (pure: the result depends on the slot and the configuration only;
+ * cache is the calling thread's reagent memo, or NULL). */
+static void annotate(const config *cfg, as_check_cache *cache, slot *s)
+{
+    const char *notes1[2];
+    int nn = 0;
+    if (s->warning[0])
+        notes1[nn++] = s->warning;
+    if (s->rec_err.code != AS_OK) {
+        s->status = ST_ERROR;
+        s->err = s->rec_err;
+        s->err.line = s->rec_err.line ? s->rec_err.line : s->line;
+        s->err_column = s->rec_err.column;
+        notes_out(s, notes1, nn);
+        return;
+    }
+    if (s->skipped) {
+        s->status = ST_SKIPPED;
+        if (s->skip_reason)
+            notes1[nn++] = s->skip_reason;
+        notes_out(s, notes1, nn);
+        return;
+    }
+    as_check_input in;
+    memset(&in, 0, sizeof in);
+    in.reaction = s->reaction;
+    in.substrate = s->substrate;
+    in.product = s->product;
+    in.reagents = s->reagents;
+    in.default_reagents = cfg->default_reagents;
+    as_check *c = NULL;
+    const char *field = NULL;
+    as_error err;
+    as_error_clear(&err);
+    as_check_opts opts = cfg->opts;
+    opts.cache = cache;
+    as_status st = as_check_record(cfg->rules, &in, &opts, &c, &field, &err);
+    if (st == AS_ERR_EMPTY) {
+        s->status = ST_SKIPPED;
+        notes1[nn++] = err.msg;
+        notes_out(s, notes1, nn);
+        return;
+    }
+    if (st != AS_OK) {
+        s->status = ST_ERROR;
+        s->err = err;
+        s->err.line = s->line;
+        s->err_field = field;
+        long base = 0;
+        if (field && !strcmp(field, "reaction"))
+            base = s->col_reaction;
+        else if (field && !strcmp(field, "substrate"))
+            base = s->col_substrate;
+        else if (field && !strcmp(field, "product"))
+            base = s->col_product;
+        else if (field && !strcmp(field, "reagents"))
+            base = s->col_reagents;
+        /* the field's first column when the message points at no byte in it */
+        s->err.column = base > 0 ? base + (err.offset >= 0 ? err.offset : 0) : 0;
+        notes_out(s, notes1, nn);
+        return;
+    }
+    s->status = ST_ANNOTATED;
+    s->substrate_out = dup_or_null(c->substrate);
+    s->reaction_id = dup_or_null(c->match.rule->id);
+    s->reagents_out = dup_or_null(c->match.variant->name);
+    s->source = dup_or_null(as_reagent_source_name(c->reagent_source));
+    if (c->outcome && c->outcome->nproducts)
+        s->major = dup_or_null(c->outcome->products[0].smiles);
+    s->products_json = products_json(c->outcome);
+    s->products_text = products_text(c->outcome);
+    if (c->has_product) {
+        s->has_verdict = 1;
+        s->verdict = c->verdict;
+        s->recorded = dup_or_null(c->proposed);
+        s->reason = dup_or_null(c->reason);
+    }
+    const char **notes = malloc((size_t)(c->nnotes + nn + 1) * sizeof *notes);
+    if (notes) {
+        int k = 0;
+        for (int i = 0; i < nn; i++)
+            notes[k++] = notes1[i];
+        for (int i = 0; i < c->nnotes; i++)
+            notes[k++] = c->notes[i];
+        notes_out(s, notes, k);
+        free(notes);
+    }
+    if (c->no_site) {
+        char sub[160];
+        snprintf(sub, sizeof sub, "%.120s", c->substrate);
+        set_error(s, AS_ERR_NO_SITE, s->reaction ? "reaction" : "substrate",
+                  s->reaction ? s->col_reaction : s->col_substrate,
+                  "the substrate %s has no C=C outside aromatic rings: nothing to add to", sub);
+    }
+    as_check_free(c);
+}
+
+/* ---------------------------------------------------------------- record memo */
+
+/* Reaction files repeat records (the same substrate with the same reagents, often many lines
+ * apart). Each worker remembers the outcome fields of its last MEMO_CAP annotated records,
+ * keyed by the input fields that decide them (reaction, substrate, product and reagent
+ * text; the default reagents are fixed for the run), and replaces the oldest unused entry
+ * when full (the clock algorithm). Records with a reader warning, skipped records, errors
+ * and substrates without C=C are never kept: their output names the line. */
+#define MEMO_CAP 4096
+#define MEMO_BUCKETS 8192 /* power of two */
+
+typedef struct memo_entry {
+    char *key;               /* owned; NULL when the entry is free */
+    size_t klen;
+    unsigned hash;
+    int next;                /* next entry in the bucket, -1 at the end */
+    int used;                /* clock bit */
+    int has_verdict;
+    as_verdict verdict;
+    char *f[11];             /* the slot's outcome strings, in MEMO_FIELDS order (owned) */
+} memo_entry;
+
+typedef struct memo {
+    memo_entry e[MEMO_CAP];
+    int bucket[MEMO_BUCKETS];
+    int n, hand;
+    char *kbuf;              /* key being built */
+    size_t kcap;
+} memo;
+
+/* ORDER MEMO_FIELDS: the slot fields a memo entry holds. */
+#define MEMO_FIELDS(s)                                                                         \
+    {&(s)->substrate_out, &(s)->reaction_id, &(s)->reagents_out, &(s)->source, &(s)->major,   \
+     &(s)->products_json, &(s)->products_text, &(s)->recorded, &(s)->reason,                  \
+     &(s)->notes_json, &(s)->notes_text}
+
+static memo *memo_new(void)
+{
+    memo *m = calloc(1, sizeof *m);
+    if (!m)
+        return NULL;
+    for (int i = 0; i < MEMO_BUCKETS; i++)
+        m->bucket[i] = -1;
+    return m;
+}
+
+static void memo_entry_clear(memo_entry *e)
+{
+    free(e->key);
+    for (int i = 0; i < 11; i++)
+        free(e->f[i]);
+    memset(e, 0, sizeof *e);
+}
+
+static void memo_free(memo *m)
+{
+    if (!m)
+        return;
+    for (int i = 0; i < m->n; i++)
+        memo_entry_clear(&m->e[i]);
+    free(m->kbuf);
+    free(m);
+}
+
+static int key_add(memo *m, size_t *len, const char *t)
+{
+    size_t n = t ? strlen(t) : 0;
+    if (*len + n + 2 > m->kcap) {
+        size_t cap = (*len + n + 2) * 2;
+        char *k = realloc(m->kbuf, cap);
+        if (!k)
+            return -1;
+        m->kbuf = k;
+        m->kcap = cap;
+    }
+    m->kbuf[(*len)++] = t ? '1' : '0'; /* absent and empty differ */
+    memcpy(m->kbuf + *len, t ? t : "", n);
+    *len += n;
+    m->kbuf[(*len)++] = '\0';
+    return 0;
+}
+
+/* Builds the key of slot s in m->kbuf; returns its length, 0 when s is not to be memoised. */
+static size_t memo_key(memo *m, const slot *s, unsigned *hash)
+{
+    if (!m || s->rec_err.code != AS_OK || s->skipped || s->warning[0])
+        return 0;
+    size_t len = 0;
+    if (key_add(m, &len, s->reaction) || key_add(m, &len, s->substrate) ||
+        key_add(m, &len, s->product) || key_add(m, &len, s->reagents))
+        return 0;
+    uint32_t h = 2166136261u; /* FNV-1a */
+    for (size_t i = 0; i < len; i++) {
+        h ^= (unsigned char)m->kbuf[i];
+        h *= 16777619u;
+    }
+    *hash = h;
+    return len;
+}
+
+/* Fills s from the memo; 1 when found. */
+static int memo_get(memo *m, slot *s, size_t klen, unsigned hash)
+{
+    for (int i = m->bucket[hash & (MEMO_BUCKETS - 1)]; i >= 0; i = m->e[i].next) {
+        memo_entry *e = &m->e[i];
+        if (e->hash != hash || e->klen != klen || memcmp(e->key, m->kbuf, klen))
+            continue;
+        char **f[11] = MEMO_FIELDS(s);
+        for (int k = 0; k < 11; k++) {
+            if (e->f[k] && !(*f[k] = dup_or_null(e->f[k]))) {
+                for (int j = 0; j < k; j++) {
+                    free(*f[j]);
+                    *f[j] = NULL;
+                }
+                return 0;
+            }
+        }
+        s->status = ST_ANNOTATED;
+        s->has_verdict = e->has_verdict;
+        s->verdict = e->verdict;
+        e->used = 1;
+        return 1;
+    }
+    return 0;
+}
+
+/* Remembers the annotated slot s under the key in m->kbuf. */
+static void memo_put(memo *m, const slot *s, size_t klen, unsigned hash)
+{
+    int i;
+    if (m->n < MEMO_CAP) {
+        i = m->n++;
+    } else {
+        while (m->e[m->hand].used) {
+            m->e[m->hand].used = 0;
+            m->hand = (m->hand + 1) % MEMO_CAP;
+        }
+        i = m->hand;
+        m->hand = (m->hand + 1) % MEMO_CAP;
+        memo_entry *old = &m->e[i];
+        if (old->key) { /* linked in its bucket */
+            int *link = &m->bucket[old->hash & (MEMO_BUCKETS - 1)];
+            while (*link != i)
+                link = &m->e[*link].next;
+            *link = old->next;
+        }
+        memo_entry_clear(old);
+    }
+    memo_entry *e = &m->e[i];
+    char *const *f[11] = MEMO_FIELDS(s);
+    int bad = !(e->key = malloc(klen));
+    for (int k = 0; k < 11 && !bad; k++)
+        bad = *f[k] && !(e->f[k] = dup_or_null(*f[k]));
+    if (bad) { /* out of memory only costs the memo: the entry stays free and unlinked */
+        memo_entry_clear(e);
+        return;
+    }
+    memcpy(e->key, m->kbuf, klen);
+    e->klen = klen;
+    e->hash = hash;
+    e->has_verdict = s->has_verdict;
+    e->verdict = s->verdict;
+    e->used = 0;
+    int *b = &m->bucket[hash & (MEMO_BUCKETS - 1)];
+    e->next = *b;
+    *b = i;
+}
+
+/* annotate() through the worker's memo (NULL: none). */
+static void annotate_memo(const config *cfg, as_check_cache *cache, memo *m, slot *s)
+{
+    unsigned hash = 0;
+    size_t klen = memo_key(m, s, &hash);
+    if (klen && memo_get(m, s, klen, hash))
+        return;
+    annotate(cfg, cache, s);
+    if (klen && s->status == ST_ANNOTATED)
+        memo_put(m, s, klen, hash);
+}
+
+/* ---------------------------------------------------------------- writing */
+
+typedef struct counts {
+    long status[ST_COUNT];
+    long verdict[AS_VERDICT_COUNT];
+    long records;
+} counts;
+
+static as_status write_slot(const config *cfg, as_writer *w, slot *s, as_error *err)
+{
+    as_kv kv[24];
+    size_t n = 0;
+    int jsonl = cfg->out_format == AS_FMT_JSONL;
+    char *errjson = NULL;
+    kv[n++] = as_kv_int("line", s->line);
+    kv[n++] = as_kv_text("id", s->id);
+    kv[n++] = as_kv_text("status", status_names[s->status]);
+    int has_err = s->status == ST_ERROR;
+    if (jsonl) {
+        if (has_err) {
+            cJSON *e = cJSON_CreateObject();
+            if (e) {
+                cJSON_AddStringToObject(e, "code", as_status_name(s->err.code));
+                cJSON_AddStringToObject(e, "message", s->err.msg);
+                cJSON_AddNumberToObject(e, "line", (double)s->err.line);
+                if (s->err.column > 0)
+                    cJSON_AddNumberToObject(e, "column", (double)s->err.column);
+                else
+                    cJSON_AddNullToObject(e, "column");
+                if (s->err_field)
+                    cJSON_AddStringToObject(e, "field", s->err_field);
+                else
+                    cJSON_AddNullToObject(e, "field");
+                if (s->err.offset >= 0)
+                    cJSON_AddNumberToObject(e, "offset", (double)s->err.offset);
+                else
+                    cJSON_AddNullToObject(e, "offset");
+                errjson = cJSON_PrintUnformatted(e);
+                cJSON_Delete(e);
+            }
+            if (!errjson)
+                return AS_ERR_NOMEM;
+            as_kv ekv = {"error", AS_KV_JSON_COMPACT, errjson, 0, 0, 0.0};
+            kv[n++] = ekv;
+        } else {
+            kv[n++] = as_kv_text("error", NULL);
+        }
+    } else {
+        kv[n++] = as_kv_text("error_code", has_err ? as_status_name(s->err.code) : NULL);
+        kv[n++] = as_kv_text("error_message", has_err ? s->err.msg : NULL);
+        kv[n++] = has_err ? as_kv_int("error_line", s->err.line) : as_kv_text("error_line", NULL);
+        kv[n++] = has_err && s->err.column > 0 ? as_kv_int("error_column", s->err.column)
+                                               : as_kv_text("error_column", NULL);
+        kv[n++] = as_kv_text("error_field", has_err ? s->err_field : NULL);
+        kv[n++] = has_err && s->err.offset >= 0 ? as_kv_int("error_offset", s->err.offset)
+                                                : as_kv_text("error_offset", NULL);
+    }
+    kv[n++] = as_kv_text("substrate", s->substrate_out);
+    kv[n++] = as_kv_text("reaction", s->reaction_id);
+    kv[n++] = as_kv_text("reagents", s->reagents_out);
+    kv[n++] = as_kv_text("reagent_source", s->source);
+    kv[n++] = as_kv_text("major", s->major);
+    if (jsonl && s->products_json) {
+        as_kv e = {"products", AS_KV_JSON_COMPACT, s->products_json, 0, 0, 0.0};
+        kv[n++] = e;
+    } else {
+        kv[n++] = as_kv_text("products", jsonl ? NULL : s->products_text);
+    }
+    kv[n++] = as_kv_text("recorded", s->recorded);
+    kv[n++] = as_kv_text("verdict", s->has_verdict ? as_verdict_name(s->verdict) : NULL);
+    kv[n++] = as_kv_text("reason", s->reason);
+    if (jsonl) {
+        as_kv e = {"notes", AS_KV_JSON_COMPACT, s->notes_json ? s->notes_json : "[]", 0, 0, 0.0};
+        kv[n++] = e;
+    } else {
+        kv[n++] = as_kv_text("notes", s->notes_text ? s->notes_text : "");
+    }
+    as_status st =
+        as_writer_put(w, kv, n, cfg->keep_columns ? (const char *const *)s->names : NULL,
+                      cfg->keep_columns ? (const char *const *)s->values : NULL,
+                      cfg->keep_columns ? s->ncols : 0, err);
+    free(errjson);
+    return st;
+}
+
+/* ---------------------------------------------------------------- progress */
+
+static double now_s(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (double)ts.tv_sec + (double)ts.tv_nsec / 1e9;
+}
+
+typedef struct progress {
+    int on, tty;
+    double start, last;
+} progress;
+
+static void progress_line(progress *p, long records, int final)
+{
+    if (!p->on)
+        return;
+    double t = now_s();
+    if (!final && t - p->last < (p->tty ? 0.25 : 1.0))
+        return;
+    p->last = t;
+    double el = t - p->start;
+    fprintf(stderr, "%sannotate: %ld records, %.0f records/s, %.1f s elapsed%s",
+            p->tty ? "\r" : "", records, el > 0 ? (double)records / el : 0.0, el,
+            p->tty && !final ? "" : "\n");
+    fflush(stderr);
+}
+
+/* ---------------------------------------------------------------- the pipeline */
+
+typedef struct pipeline {
+    const config *cfg;
+    as_reader *reader;
+    slot *ring;
+    long cap;
+    long head, work, tail;   /* next to read, next to annotate, next to write */
+    int eof, stop, fatal;
+    as_error read_err;
+    pthread_mutex_t mu;
+    pthread_cond_t space;    /* a slot was freed (reader waits) */
+    pthread_cond_t filled;   /* a slot was filled or input ended (workers wait) */
+    pthread_cond_t done;     /* a slot was annotated or input ended (writer waits) */
+} pipeline;
+
+static void *reader_main(void *arg)
+{
+    pipeline *p = arg;
+    for (;;) {
+        as_record rec;
+        as_error err;
+        as_error_clear(&err);
+        as_status st = as_reader_next(p->reader, &rec, &err);
+        pthread_mutex_lock(&p->mu);
+        while (!p->stop && p->head - p->tail >= p->cap)
+            pthread_cond_wait(&p->space, &p->mu);
+        if (p->stop || st != AS_OK || rec.at_end) {
+            if (st != AS_OK) {
+                p->fatal = 1;
+                p->read_err = err;
+            }
+            p->eof = 1;
+            pthread_cond_broadcast(&p->filled);
+            pthread_cond_broadcast(&p->done);
+            pthread_mutex_unlock(&p->mu);
+            return NULL;
+        }
+        slot *s = &p->ring[p->head % p->cap];
+        pthread_mutex_unlock(&p->mu);
+        /* the slot is free and only this thread fills it */
+        int bad = slot_fill(s, &rec, p->cfg->keep_columns);
+        pthread_mutex_lock(&p->mu);
+        if (bad) {
+            p->fatal = 1;
+            p->read_err.code = AS_ERR_NOMEM;
+            snprintf(p->read_err.msg, sizeof p->read_err.msg, "out of memory");
+            p->eof = 1;
+            slot_clear(s);
+            pthread_cond_broadcast(&p->filled);
+            pthread_cond_broadcast(&p->done);
+            pthread_mutex_unlock(&p->mu);
+            return NULL;
+        }
+        p->head++;
+        pthread_cond_signal(&p->filled);
+        pthread_mutex_unlock(&p->mu);
+    }
+}
+
+static void *worker_main(void *arg)
+{
+    pipeline *p = arg;
+    as_check_cache *cache = as_check_cache_new(); /* NULL: no memo, same results */
+    memo *m = p->cfg->memo ? memo_new() : NULL;
+    pthread_mutex_lock(&p->mu);
+    for (;;) {
+        while (!p->stop && p->work == p->head && !p->eof)
+            pthread_cond_wait(&p->filled, &p->mu);
+        if (p->stop || p->work == p->head) {
+            pthread_mutex_unlock(&p->mu);
+            as_check_cache_free(cache);
+            memo_free(m);
+            return NULL;
+        }
+        slot *s = &p->ring[p->work % p->cap];
+        p->work++;
+        s->state = 2;
+        pthread_mutex_unlock(&p->mu);
+        annotate_memo(p->cfg, cache, m, s);
+        pthread_mutex_lock(&p->mu);
+        s->state = 3;
+        pthread_cond_signal(&p->done);
+    }
+}
+
+typedef struct run_state {
+    const config *cfg;
+    as_writer *w;
+    counts *cnt;
+    progress *prog;
+    int policy;
+    int stopped;       /* --on-error stop ended the run */
+    int write_failed;
+    as_error werr;
+} run_state;
+
+/* Writes one annotated slot and counts it; returns 0 to go on, 1 to stop. */
+static int emit(run_state *rs, slot *s)
+{
+    if (write_slot(rs->cfg, rs->w, s, &rs->werr) != AS_OK) {
+        rs->write_failed = 1;
+        return 1;
+    }
+    rs->cnt->records++;
+    rs->cnt->status[s->status]++;
+    if (s->has_verdict)
+        rs->cnt->verdict[s->verdict]++;
+    progress_line(rs->prog, rs->cnt->records, 0);
+    if (s->status == ST_ERROR && rs->policy == POLICY_STOP) {
+        rs->stopped = 1;
+        fprintf(stderr, "addsite annotate: line %ld: %s: %s (stopping: --on-error stop)\n",
+                s->err.line, as_status_name(s->err.code), s->err.msg);
+        return 1;
+    }
+    return 0;
+}
+
+static int run_serial(run_state *rs, as_reader *r, as_error *rerr)
+{
+    slot s;
+    memset(&s, 0, sizeof s);
+    as_check_cache *cache = as_check_cache_new(); /* NULL: no memo, same results */
+    memo *m = rs->cfg->memo ? memo_new() : NULL;
+    int rc = 0;
+    for (;;) {
+        as_record rec;
+        if (as_reader_next(r, &rec, rerr) != AS_OK) {
+            rc = -1;
+            break;
+        }
+        if (rec.at_end)
+            break;
+        if (slot_fill(&s, &rec, rs->cfg->keep_columns)) {
+            slot_clear(&s);
+            rerr->code = AS_ERR_NOMEM;
+            snprintf(rerr->msg, sizeof rerr->msg, "out of memory");
+            rc = -1;
+            break;
+        }
+        annotate_memo(rs->cfg, cache, m, &s);
+        int stop = emit(rs, &s);
+        slot_clear(&s);
+        if (stop)
+            break;
+    }
+    as_check_cache_free(cache);
+    memo_free(m);
+    return rc;
+}
+
+static int run_threads(run_state *rs, as_reader *r, int nworkers, as_error *rerr)
+{
+    pipeline p;
+    memset(&p, 0, sizeof p);
+    p.cfg = rs->cfg;
+    p.reader = r;
+    p.cap = 16L * nworkers;
+    p.ring = calloc((size_t)p.cap, sizeof *p.ring);
+    if (!p.ring) {
+        rerr->code = AS_ERR_NOMEM;
+        snprintf(rerr->msg, sizeof rerr->msg, "out of memory");
+        return -1;
+    }
+    pthread_mutex_init(&p.mu, NULL);
+    pthread_cond_init(&p.space, NULL);
+    pthread_cond_init(&p.filled, NULL);
+    pthread_cond_init(&p.done, NULL);
+    pthread_t rt, *wt = calloc((size_t)nworkers, sizeof *wt);
+    int nstarted = 0, reader_started = 0;
+    if (wt && pthread_create(&rt, NULL, reader_main, &p) == 0)
+        reader_started = 1;
+    for (int i = 0; reader_started && i < nworkers; i++)
+        if (pthread_create(&wt[i], NULL, worker_main, &p) == 0)
+            nstarted++;
+    int rc = 0;
+    if (!reader_started || !nstarted) {
+        pthread_mutex_lock(&p.mu);
+        p.stop = 1;
+        pthread_cond_broadcast(&p.space);
+        pthread_cond_broadcast(&p.filled);
+        pthread_mutex_unlock(&p.mu);
+        rerr->code = AS_ERR_NOMEM;
+        snprintf(rerr->msg, sizeof rerr->msg, "could not start threads");
+        rc = -1;
+    }
+    pthread_mutex_lock(&p.mu);
+    while (rc == 0) {
+        slot *s = &p.ring[p.tail % p.cap];
+        while (!(p.tail < p.head && s->state == 3) && !(p.eof && p.tail == p.head))
+            pthread_cond_wait(&p.done, &p.mu);
+        if (p.tail == p.head && p.eof)
+            break;
+        pthread_mutex_unlock(&p.mu);
+        int stop = emit(rs, s);
+        slot_clear(s);
+        pthread_mutex_lock(&p.mu);
+        p.tail++;
+        pthread_cond_signal(&p.space);
+        if (stop) {
+            p.stop = 1;
+            pthread_cond_broadcast(&p.space);
+            pthread_cond_broadcast(&p.filled);
+            break;
+        }
+    }
+    if (p.fatal && rc == 0) {
+        *rerr = p.read_err;
+        rc = -1;
+    }
+    pthread_mutex_unlock(&p.mu);
+    if (reader_started)
+        pthread_join(rt, NULL);
+    for (int i = 0; i < nstarted; i++)
+        pthread_join(wt[i], NULL);
+    for (long i = 0; i < p.cap; i++)
+        slot_clear(&p.ring[i]);
+    free(p.ring);
+    free(wt);
+    pthread_mutex_destroy(&p.mu);
+    pthread_cond_destroy(&p.space);
+    pthread_cond_destroy(&p.filled);
+    pthread_cond_destroy(&p.done);
+    return rc;
+}
+
+/* ---------------------------------------------------------------- summary */
+
+static void summary(FILE *f, const counts *c, const char *out_name)
+{
+    fprintf(f, "annotate: %ld records:", c->records);
+    for (int i = 0; i < ST_COUNT; i++)
+        fprintf(f, " %s %ld%s", status_names[i], c->status[i], i + 1 < ST_COUNT ? "," : "");
+    long nv = 0;
+    for (int i = 0; i < AS_VERDICT_COUNT; i++)
+        nv += c->verdict[i];
+    if (nv) {
+        fputs("; verdicts:", f);
+        int first = 1;
+        for (int i = 0; i < AS_VERDICT_COUNT; i++)
+            if (c->verdict[i]) {
+                fprintf(f, "%s %s %ld", first ? "" : ",", as_verdict_name((as_verdict)i),
+                        c->verdict[i]);
+                first = 0;
+            }
+    }
+    if (out_name)
+        fprintf(f, "; written to %s", out_name);
+    fputc('\n', f);
+}
+
+/* ---------------------------------------------------------------- entry */
+
+int as_cli_annotate(int argc, char **argv)
+{
+    const char *input = NULL, *out_path = NULL, *rules_dir = NULL;
+    int nworkers = 1, policy = POLICY_REPORT, quiet = 0, want_progress = 0;
+    config cfg;
+    memset(&cfg, 0, sizeof cfg);
+    as_check_opts_init(&cfg.opts);
+    cfg.opts.predict.rationale = 0; /* annotate never prints the rationale */
+    cfg.memo = 1;
+    cfg.out_format = AS_FMT_JSONL;
+    as_reader_opts ropts;
+    as_reader_opts_init(&ropts);
+    as_error err;
+    as_error_clear(&err);
+    for (int i = 1; i < argc; i++) {
+        const char *a = argv[i];
+        int has_val = i + 1 < argc;
+        const char **col = NULL;
+        if (!strcmp(a, "--help") || !strcmp(a, "-h")) {
+            help(stdout);
+            return 0;
+        } else if (!strcmp(a, "--reaction-col")) {
+            col = &ropts.reaction_col;
+        } else if (!strcmp(a, "--substrate-col")) {
+            col = &ropts.substrate_col;
+        } else if (!strcmp(a, "--product-col")) {
+            col = &ropts.product_col;
+        } else if (!strcmp(a, "--reagent-col")) {
+            col = &ropts.reagent_col;
+        } else if (!strcmp(a, "--id-col")) {
+            col = &ropts.id_col;
+        } else if (!strcmp(a, "--smiles-col")) {
+            col = &ropts.smiles_col;
+        } else if (!strcmp(a, "--input-format")) {
+            if (!has_val || as_format_parse(argv[++i], &ropts.format, &err) != AS_OK)
+                return usage_error("--input-format needs auto, smiles, csv, tsv or jsonl",
+                                   NULL);
+        } else if (!strcmp(a, "--format")) {
+            if (!has_val || as_format_parse(argv[++i], &cfg.out_format, &err) != AS_OK ||
+                (cfg.out_format != AS_FMT_JSONL && cfg.out_format != AS_FMT_TSV &&
+                 cfg.out_format != AS_FMT_CSV))
+                return usage_error("--format needs jsonl, tsv or csv", NULL);
+        } else if (!strcmp(a, "--reagents")) {
+            if (!has_val)
+                return usage_error("--reagents needs a value", NULL);
+            cfg.default_reagents = argv[++i];
+        } else if (!strcmp(a, "--max-record")) {
+            char *end = NULL;
+            if (!has_val)
+                return usage_error("--max-record needs a size in bytes", NULL);
+            long v = strtol(argv[++i], &end, 10);
+            if (!end || *end || v < AS_IO_MIN_MAX_RECORD)
+                return usage_error("--max-record needs a size in bytes of at least 64", NULL);
+            ropts.max_record = v;
+        } else if (!strcmp(a, "--keep-columns")) {
+            cfg.keep_columns = 1;
+        } else if (!strcmp(a, "-o") || !strcmp(a, "--output")) {
+            if (!has_val)
+                return usage_error("-o needs a file name", NULL);
+            out_path = argv[++i];
+        } else if (!strcmp(a, "-j") || !strcmp(a, "--jobs")) {
+            char *end = NULL;
+            if (!has_val)
+                return usage_error("-j needs a number of threads", NULL);
+            long v = strtol(argv[++i], &end, 10);
+            if (!end || *end || v < 1 || v > 256)
+                return usage_error("-j needs a number of threads from 1 to 256", NULL);
+            nworkers = (int)v;
+        } else if (!strcmp(a, "--on-error")) {
+            if (!has_val)
+                return usage_error("--on-error needs report, stop or ignore", NULL);
+            const char *v = argv[++i];
+            if (!strcmp(v, "report"))
+                policy = POLICY_REPORT;
+            else if (!strcmp(v, "stop"))
+                policy = POLICY_STOP;
+            else if (!strcmp(v, "ignore"))
+                policy = POLICY_IGNORE;
+            else
+                return usage_error("--on-error needs report, stop or ignore, not", v);
+        } else if (!strcmp(a, "--no-memo")) {
+            cfg.memo = 0;
+        } else if (!strcmp(a, "--strict-stereo")) {
+            cfg.opts.strict_stereo = 1;
+        } else if (!strcmp(a, "--progress")) {
+            want_progress = 1;
+        } else if (!strcmp(a, "-q") || !strcmp(a, "--quiet")) {
+            quiet = 1;
+        } else if (!strcmp(a, "--rules")) {
+            if (!has_val)
+                return usage_error("--rules needs a directory", NULL);
+            rules_dir = argv[++i];
+        } else if (a[0] == '-' && a[1] != '\0') {
+            return usage_error("unknown option", a);
+        } else if (!input) {
+            input = a;
+        } else {
+            return usage_error("only one input file is taken; extra argument", a);
+        }
+        if (col) {
+            if (!has_val)
+                return usage_error(a, "needs a column name or index");
+            *col = argv[++i];
+        }
+    }
+    if (!input)
+        input = "-";
+
+    as_rules *rules = NULL;
+    as_reader *reader = NULL;
+    as_outfile *out = NULL;
+    as_writer *w = NULL;
+    int rc = 2;
+    if (as_rules_load(rules_dir, &rules, &err) != AS_OK) {
+        as_cli_print_error(stderr, "annotate", 0, NULL, 0, &err);
+        goto done;
+    }
+    cfg.rules = rules;
+    if (cfg.default_reagents) {
+        as_reagent_match m;
+        if (as_rules_recognise(rules, cfg.default_reagents, strlen(cfg.default_reagents), &m,
+                               &err) != AS_OK) {
+            fputs("addsite annotate: --reagents: ", stderr);
+            as_cli_print_error(stderr, "annotate", 0, NULL, 0, &err);
+            goto done;
+        }
+    }
+    if (as_reader_open(input, &ropts, &reader, &err) != AS_OK) {
+        as_cli_print_error(stderr, "annotate", err.line, NULL, 0, &err);
+        goto done;
+    }
+    if (as_outfile_open(out_path ? out_path : "-", &out, &err) != AS_OK) {
+        as_cli_print_error(stderr, "annotate", 0, NULL, 0, &err);
+        goto done;
+    }
+    as_writer_opts wopts;
+    as_writer_opts_init(&wopts);
+    wopts.format = cfg.out_format;
+    if (as_writer_open(out, &wopts, &w, &err) != AS_OK) {
+        as_cli_print_error(stderr, "annotate", 0, NULL, 0, &err);
+        goto done;
+    }
+
+    counts cnt;
+    memset(&cnt, 0, sizeof cnt);
+    progress prog;
+    memset(&prog, 0, sizeof prog);
+    prog.tty = isatty(2);
+    prog.on = !quiet && (want_progress || prog.tty);
+    prog.start = prog.last = now_s();
+    run_state rs;
+    memset(&rs, 0, sizeof rs);
+    rs.cfg = &cfg;
+    rs.w = w;
+    rs.cnt = &cnt;
+    rs.prog = &prog;
+    rs.policy = policy;
+    as_error rerr;
+    as_error_clear(&rerr);
+    int r = nworkers == 1 ? run_serial(&rs, reader, &rerr)
+                          : run_threads(&rs, reader, nworkers, &rerr);
+    progress_line(&prog, cnt.records, 1);
+    as_writer_free(w);
+    w = NULL;
+    if (r != 0) {
+        as_cli_print_error(stderr, "annotate", 0, NULL, 0, &rerr);
+        as_outfile_abort(out);
+        out = NULL;
+        rc = 1;
+        goto done;
+    }
+    if (rs.write_failed) {
+        as_cli_print_error(stderr, "annotate", 0, NULL, 0, &rs.werr);
+        as_outfile_abort(out);
+        out = NULL;
+        rc = 1;
+        goto done;
+    }
+    if (rs.stopped) {
+        /* an incomplete file is not put in place; on standard output it is already out */
+        as_status cst = out_path ? (as_outfile_abort(out), AS_OK) : as_outfile_close(out, &err);
+        out = NULL;
+        if (cst != AS_OK)
+            as_cli_print_error(stderr, "annotate", 0, NULL, 0, &err);
+        if (!quiet)
+            summary(stderr, &cnt, NULL);
+        rc = 1;
+        goto done;
+    }
+    as_status cst = as_outfile_close(out, &err);
+    out = NULL;
+    if (cst != AS_OK) {
+        as_cli_print_error(stderr, "annotate", 0, NULL, 0, &err);
+        rc = 1;
+        goto done;
+    }
+    if (!quiet)
+        summary(stderr, &cnt, out_path);
+    rc = cnt.status[ST_ERROR] && policy == POLICY_REPORT ? 3 : 0;
+done:
+    as_writer_free(w);
+    as_outfile_abort(out);
+    as_reader_close(reader);
+    as_rules_free(rules);
+    return rc;
+}
