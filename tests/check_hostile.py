@@ -215,6 +215,44 @@ def annotate_cases(tmp):
     if rc != 0:
         print('note: `addsite annotate` does not exist in this build yet; its cases are skipped')
         return
+    a = ['annotate', '--reagents', 'HBr']
+
+    def records(n):
+        def f(out):
+            got = out.count(b'\n')
+            return None if got == n else f'{got} output records, expected {n} (one per input)'
+        return f
+
+    big = b'C=CC\n' + b'C' * 2000000 + b'\nC=CCC\n'
+    check('annotate: a 2 MB record is an error record, its neighbours are annotated', a, big,
+          rcs=(0, 1, 3), budget=10.0, out_check=records(3))
+    check('annotate: NUL byte and invalid UTF-8 are error records', a,
+          b'C=CC\nC=C\x00C\nC=C\xffC\nC=CCC\n', rcs=(0, 1, 3), out_check=records(4))
+    check('annotate: CRLF and a UTF-8 BOM are accepted', a,
+          b'\xef\xbb\xbfC=CC\r\nC=CCC\r\n', rcs=(0,), out_check=records(2))
+    gz = gzip.compress(b'C=CC\n' * 5000)
+    path = os.path.join(tmp, 'cut.smi.gz')
+    with open(path, 'wb') as fh:
+        fh.write(gz[:len(gz) // 2])
+    check('annotate: a truncated gzip file ends with an io error record, not a clean finish',
+          a + [path], rcs=(1, 2, 3), budget=10.0,
+          out_check=lambda o: None if b'"io"' in o.rstrip(b'\n').split(b'\n')[-1]
+          else f'last record {o[-200:]!r}')
+    check('annotate: a missing input file is an io error', a + [os.path.join(tmp, 'none.smi')],
+          rcs=(1, 2), codes=('io',))
+    check('annotate: a directory as input is an io error', a + [tmp], rcs=(1, 2), codes=('io',))
+    check('annotate: a full disk on standard output is an error', a, b'C=CC\n', rcs=(1, 2, 3),
+          stdout=open('/dev/full', 'wb'))
+    target = os.path.join(tmp, 'no-such-dir', 'out.jsonl')
+    rc, out, err, _ = run(a + ['-o', target], b'C=CC\n')
+    leftovers = os.listdir(tmp)
+    report(rc not in (0, None) and rc > 0 and not os.path.exists(target),
+           'annotate: -o into a missing directory fails and leaves no file',
+           f'status {rc}, stderr {err[-200:]!r}, files {leftovers}')
+    n = 10000
+    check('annotate: 10,000 nested branches and a 20,000-atom chain', a,
+          ('C=C' + '(C' * n + ')' * n + '\n').encode() + b'C=C' + b'C' * 20000 + b'\n',
+          rcs=(0, 3), budget=10.0, out_check=records(2))
 
 
 def main():
