@@ -76,8 +76,27 @@ def predict_seeds():
     return items
 
 
+def record_seeds():
+    items = []
+    base = os.path.join(ROOT, "tests", "data", "io")
+    if os.path.isdir(base):
+        for name in sorted(os.listdir(base)):
+            p = os.path.join(base, name)
+            if os.path.isfile(p) and not name.endswith(".gz") and os.path.getsize(p) < 8192:
+                with open(p, "rb") as f:
+                    data = f.read()
+                for fmt in range(5):
+                    items.append(bytes([fmt]) + data)
+    items.append(b"\x01C=CC\tHBr\tr1\nCC(C)=C\t1) BH3.THF 2) H2O2, NaOH\tr2\n")
+    items.append(b"\x02id,reaction_smiles,reagents\nr1,C=CC>>CC(C)Br,HBr\n")
+    items.append(b"\x03id\tsmiles\treagents\nr1\tC=CC\tHBr\n")
+    items.append(b'\x04{"id": "r1", "smiles": "C=CC", "reagents": "HBr"}\n')
+    return items
+
+
 if __name__ == "__main__":
     write("smiles", smiles_seeds())
     write("rules", rule_seeds())
     write("reagents", reagent_seeds())
     write("predict", predict_seeds())
+    write("records", record_seeds())
