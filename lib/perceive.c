@@ -376,7 +376,10 @@ static as_status pass_rings(as_mol *m, as_error *err)
         ncands++;
         npool += size;
     }
-    qsort(cands, (size_t)ncands, sizeof(cand), cand_cmp);
+    if (cands) /* NULL when every ring is larger than AS_RING_SEARCH_MAX */
+        qsort(cands, (size_t)ncands, sizeof(cand), cand_cmp);
+    if (w.words <= 0 || target > m->nbonds) /* never: keeps the sizes below provably small */
+        goto out;
     w.basis = calloc((size_t)target * (size_t)w.words, sizeof(uint64_t));
     w.pivot = malloc((size_t)target * sizeof(int));
     set = malloc((size_t)w.words * sizeof(uint64_t));

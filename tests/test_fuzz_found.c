@@ -52,9 +52,27 @@ static void ring_through_star_is_not_aromatic_so_its_smiles_reads_back(void **st
     free(s);
 }
 
+/* check_hostile.py (sanitizer build): a ring larger than AS_RING_SEARCH_MAX left the ring
+ * pass with no candidate rings and passed NULL to qsort (undefined behaviour). */
+static void ring_larger_than_the_search_limit_is_read_and_written(void **state)
+{
+    (void)state;
+    size_t n = 1100;
+    char *text = malloc(n + 5);
+    assert_non_null(text);
+    memcpy(text, "C1", 2);
+    memset(text + 2, 'C', n - 2);
+    memcpy(text + n, "C1", 3);
+    char *out = canon(text);
+    assert_string_equal(out, text);
+    free(out);
+    free(text);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
+        cmocka_unit_test(ring_larger_than_the_search_limit_is_read_and_written),
         cmocka_unit_test(ring_through_star_is_not_aromatic_so_its_smiles_reads_back),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
