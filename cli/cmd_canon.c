@@ -22,7 +22,8 @@ static void help(FILE *f)
           "  --no-stereo   drop @/@@ and / \\ marks\n"
           "  --no-maps     drop atom classes (:n)\n"
           "\n"
-          "Exit status: 0 all lines read, 1 some lines failed, 2 usage error.\n",
+          "Exit status: 0 all lines read, 1 some lines failed, 2 usage error or the input\n"
+          "could not be read or the output not written (full disk).\n",
           f);
 }
 
@@ -154,6 +155,12 @@ int as_cli_canon(int argc, char **argv)
         failed |= one(line, len, lineno, &o);
     }
     free(line);
+    if (ferror(stdin)) {
+        /* a read error (a directory, a failing device) must not look like the end of input */
+        fprintf(stderr, "addsite canon: io: cannot read standard input after line %ld\n",
+                lineno);
+        return 2;
+    }
     fflush(stdout);
     return failed ? 1 : 0;
 }

@@ -2,6 +2,7 @@
  * Owns: choosing a subcommand and the shared error/caret printer. Must not: hold chemistry. */
 #include "cli.h"
 
+#include <errno.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -82,6 +83,19 @@ void as_cli_print_error(FILE *f, const char *cmd, long line, const char *text, s
     fputs("^\n", f);
 }
 
+/* A full disk or closed pipe on standard output must not pass for a complete result: flush
+ * it and turn a write error into exit status 2 with a message. */
+static int finish(const char *cmd, int rc)
+{
+    errno = 0;
+    if (fflush(stdout) != 0 || ferror(stdout)) {
+        fprintf(stderr, "addsite %s: io: cannot write the output: %s\n", cmd,
+                errno ? strerror(errno) : "write error");
+        return 2;
+    }
+    return rc;
+}
+
 int main(int argc, char **argv)
 {
     if (argc < 2) {
@@ -112,7 +126,7 @@ int main(int argc, char **argv)
     }
     for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
         if (!strcmp(cmd, commands[i].name))
-            return commands[i].run(argc - 1, argv + 1);
+            return finish(cmd, commands[i].run(argc - 1, argv + 1));
     fprintf(stderr, "addsite: no command '%s'\n\n", cmd);
     usage(stderr);
     return 2;

@@ -293,19 +293,24 @@ static as_status pass_rings(as_mol *m, as_error *err)
         goto out;
     }
     /* Candidates: for each ring bond u-v, the shortest path v..u avoiding the bond, closed by
-     * it; every bond's smallest ring is then known exactly. */
+     * it; every bond's smallest ring of up to AS_RING_SEARCH_MAX atoms is then known exactly.
+     * The search stops at that size (a ring bond of a larger ring gets ring_size
+     * AS_RING_SEARCH_MAX + 1 and no SSSR entry), and only the atoms it reached are reset, so
+     * a 100,000-atom ring or 20,000 small rings cost about n * min(ring, limit), not n². */
+    for (int i = 0; i < n; i++)
+        dist[i] = -1;
     for (int b = 0; b < m->nbonds; b++) {
         if (!ringb[b])
             continue;
         int u = m->bonds[b].a, v = m->bonds[b].b;
-        for (int i = 0; i < n; i++)
-            dist[i] = -1;
         int head = 0, tail = 0;
         queue[tail++] = v;
         dist[v] = 0;
         prevb[v] = -1;
         while (head < tail && dist[u] < 0) {
             int x = queue[head++];
+            if (dist[x] + 1 >= AS_RING_SEARCH_MAX)
+                break;
             for (int k = 0; k < m->atoms[x].degree; k++) {
                 int bk = m->atoms[x].nbond[k], y = m->atoms[x].nbr[k];
                 if (bk == b || !ringb[bk] || dist[y] >= 0)
@@ -315,20 +320,46 @@ static as_status pass_rings(as_mol *m, as_error *err)
                 queue[tail++] = y;
             }
         }
-        if (dist[u] < 0)
-            continue;
-        int size = dist[u] + 1;
-        if (npool + size > cappool) {
-            int nc = cappool ? cappool * 2 : 256;
-            while (nc < npool + size)
-                nc *= 2;
-            int *p = realloc(pool, (size_t)nc * sizeof(int));
-            if (!p) {
-                st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
-                goto out;
+        int found = dist[u] >= 0, size = dist[u] + 1;
+        if (found) {
+            /* collect the ring before resetting */
+            if (npool + size > cappool) {
+                int nc = cappool ? cappool * 2 : 256;
+                while (nc < npool + size)
+                    nc *= 2;
+                int *p = realloc(pool, (size_t)nc * sizeof(int));
+                if (!p) {
+                    st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+                    goto out;
+                }
+                pool = p;
+                cappool = nc;
             }
-            pool = p;
-            cappool = nc;
+            int k = npool;
+            for (int x = u; x != -1; x = prevb[x])
+                pool[k++] = x;
+        }
+        for (int q = 0; q < tail; q++)
+            dist[queue[q]] = -1;
+        if (!found) {
+            m->bonds[b].ring_size = AS_RING_SEARCH_MAX + 1;
+            continue;
+        }
+        m->bonds[b].ring_size = size;
+        /* a macrocycle gives the same ring from each of its bonds: keep it once (rings up to
+         * 64 atoms keep every candidate, so ordinary ring systems are unaffected) */
+        if (size > 64 && ncands > 0 && cands[ncands - 1].size == size) {
+            const int *prev = pool + cands[ncands - 1].start;
+            int pu = -1, pv = -1;
+            for (int k = 0; k < size; k++) {
+                if (prev[k] == u)
+                    pu = k;
+                if (prev[k] == v)
+                    pv = k;
+            }
+            int d = pu > pv ? pu - pv : pv - pu;
+            if (pu >= 0 && pv >= 0 && (d == 1 || d == size - 1))
+                continue; /* b is a bond of the previous candidate ring */
         }
         if (ncands == capc) {
             int nc = capc ? capc * 2 : 64;
@@ -343,11 +374,12 @@ static as_status pass_rings(as_mol *m, as_error *err)
         cands[ncands].size = size;
         cands[ncands].start = npool;
         ncands++;
-        for (int x = u; x != -1; x = prevb[x])
-            pool[npool++] = x;
-        m->bonds[b].ring_size = size;
+        npool += size;
     }
-    qsort(cands, (size_t)ncands, sizeof(cand), cand_cmp);
+    if (cands) /* NULL when every ring is larger than AS_RING_SEARCH_MAX */
+        qsort(cands, (size_t)ncands, sizeof(cand), cand_cmp);
+    if (w.words <= 0 || target > m->nbonds) /* never: keeps the sizes below provably small */
+        goto out;
     w.basis = calloc((size_t)target * (size_t)w.words, sizeof(uint64_t));
     w.pivot = malloc((size_t)target * sizeof(int));
     set = malloc((size_t)w.words * sizeof(uint64_t));

@@ -39,7 +39,8 @@ typedef struct as_atom {
     int mapnum;         /* atom class / map number; 0 when none */
     int aromatic;       /* 1 when aromatic (as read before perception, as perceived after) */
     int bracket;        /* 1 when it was written in brackets */
-    int ring_size;      /* smallest ring through the atom, 0 when acyclic (as_perceive) */
+    int ring_size;      /* smallest ring through the atom, 0 when acyclic (as_perceive;
+                           AS_RING_SEARCH_MAX + 1 when larger than that) */
     int src_offset;     /* byte offset of the atom in the text it was read from, -1 if built */
     int degree;                    /* number of explicit neighbours */
     int nbr[AS_MAX_DEGREE];        /* neighbour atoms, in the order the bonds were made */
@@ -50,7 +51,8 @@ typedef struct as_bond {
     int a, b;           /* atom indices; a was written first */
     int order;          /* AS_BOND_* */
     int aromatic;       /* 1 when part of an aromatic ring (after perception) */
-    int ring_size;      /* smallest ring through the bond, 0 when acyclic (as_perceive) */
+    int ring_size;      /* smallest ring through the bond, 0 when acyclic (as_perceive;
+                           AS_RING_SEARCH_MAX + 1 when larger than that) */
 } as_bond;
 
 /* A tetrahedral centre. nbr holds four neighbours in the reference order the parity refers

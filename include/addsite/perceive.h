@@ -11,6 +11,11 @@
 extern "C" {
 #endif
 
+/* Largest ring, in atoms, whose exact size the ring pass finds. A ring bond whose smallest
+ * ring is larger gets ring_size AS_RING_SEARCH_MAX + 1 and its ring no SSSR entry (keeps
+ * perception of a 100,000-atom macrocycle near-linear; real macrocycles are far smaller). */
+#define AS_RING_SEARCH_MAX 1024
+
 /* Pass bits, run in this order. */
 enum {
     AS_PASS_HYDROGENS = 1 << 0,  /* implicit H by the OpenSMILES default valences */
