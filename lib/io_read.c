@@ -737,6 +737,12 @@ static int csv_read(as_reader *r, as_record *rec, char delim)
                 rec->err.line = qline;
                 rec->err.column = qcol;
                 rec->err.offset = qline == line0 ? qcol - 1 : -1;
+                /* a CR kept inside the open quote may stand one byte past the limit */
+                if (rec->raw_len > r->max) {
+                    r->raw.p[r->raw.len = r->max] = '\0';
+                    rec->raw_len = r->max;
+                    rec->truncated = 1;
+                }
                 return CSV_BAD;
             }
             if (state == CS_UNQ) {

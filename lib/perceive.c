@@ -738,31 +738,69 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
         if (e - s <= 24 && ring_set_aromatic(m->ring_atoms + s, e - s, pi))
             ring_done[r] = 1;
     }
-    for (int r1 = 0; r1 < m->nrings; r1++) {
-        for (int r2 = r1 + 1; r2 < m->nrings; r2++) {
-            if (ring_done[r1] && ring_done[r2])
-                continue;
-            int s1 = m->ring_start[r1], e1 = m->ring_start[r1 + 1];
-            int s2 = m->ring_start[r2], e2 = m->ring_start[r2 + 1];
-            if (e1 - s1 + e2 - s2 > 24)
-                continue;
-            int shared = 0, k = 0;
-            for (int j = s1; j < e1; j++) {
-                buf[k++] = m->ring_atoms[j];
-                seen[m->ring_atoms[j]] = 1;
-            }
-            for (int j = s2; j < e2; j++) {
-                if (seen[m->ring_atoms[j]])
-                    shared++;
-                else
+    /* rings through each atom (CSR), so only rings that touch are paired */
+    int nr = m->nrings, total = m->ring_start[nr];
+    int *at_start = calloc((size_t)n + 1, sizeof(int));
+    int *at_ring = malloc((size_t)(total ? total : 1) * sizeof(int));
+    int *mark = malloc((size_t)nr * sizeof(int));
+    if (!at_start || !at_ring || !mark) {
+        free(at_start);
+        free(at_ring);
+        free(mark);
+        free(sys);
+        free(pi);
+        free(ring_done);
+        free(buf);
+        free(seen);
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    }
+    for (int j = 0; j < total; j++)
+        at_start[m->ring_atoms[j] + 1]++;
+    for (int i = 0; i < n; i++)
+        at_start[i + 1] += at_start[i];
+    for (int r = 0; r < nr; r++)
+        for (int j = m->ring_start[r]; j < m->ring_start[r + 1]; j++)
+            at_ring[at_start[m->ring_atoms[j]]++] = r;
+    for (int i = n; i > 0; i--)
+        at_start[i] = at_start[i - 1];
+    at_start[0] = 0;
+    for (int r = 0; r < nr; r++)
+        mark[r] = -1;
+    for (int r1 = 0; r1 < nr; r1++) {
+        int s1 = m->ring_start[r1], e1 = m->ring_start[r1 + 1];
+        for (int j1 = s1; j1 < e1; j1++) {
+            int x = m->ring_atoms[j1];
+            for (int q = at_start[x]; q < at_start[x + 1]; q++) {
+                int r2 = at_ring[q];
+                if (r2 <= r1 || mark[r2] == r1)
+                    continue;
+                mark[r2] = r1;
+                if (ring_done[r1] && ring_done[r2])
+                    continue;
+                int s2 = m->ring_start[r2], e2 = m->ring_start[r2 + 1];
+                if (e1 - s1 + e2 - s2 > 24)
+                    continue;
+                int shared = 0, k = 0;
+                for (int j = s1; j < e1; j++) {
                     buf[k++] = m->ring_atoms[j];
+                    seen[m->ring_atoms[j]] = 1;
+                }
+                for (int j = s2; j < e2; j++) {
+                    if (seen[m->ring_atoms[j]])
+                        shared++;
+                    else
+                        buf[k++] = m->ring_atoms[j];
+                }
+                for (int j = s1; j < e1; j++)
+                    seen[m->ring_atoms[j]] = 0;
+                if (shared == 2 && ring_set_aromatic(buf, k, pi))
+                    ring_done[r1] = ring_done[r2] = 1;
             }
-            for (int j = s1; j < e1; j++)
-                seen[m->ring_atoms[j]] = 0;
-            if (shared == 2 && ring_set_aromatic(buf, k, pi))
-                ring_done[r1] = ring_done[r2] = 1;
         }
     }
+    free(at_start);
+    free(at_ring);
+    free(mark);
     for (int r = 0; r < m->nrings; r++) {
         if (!ring_done[r])
             continue;

@@ -7,6 +7,7 @@
 # ctest replays it in every build.
 #
 # Environment: AS_FUZZ_SECONDS  seconds per target (default 60)
+#              AS_FUZZ_SEED     libFuzzer seed (default 1, so a run is repeatable)
 #              AS_FUZZ_TARGETS  space-separated targets to run (default: every fuzz/fuzz_*.c)
 #              AS_FUZZ_JOBS     targets run at once (default 2)
 #              CC               compiler (default clang)
@@ -53,7 +54,8 @@ run_one() {
     # shellcheck disable=SC2086
     if ASAN_OPTIONS=detect_leaks=1:abort_on_error=1 \
        UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 \
-       "build-fuzz/fuzz_$t" -max_total_time="$secs" -max_len="$(max_len "$t")" -timeout=10 \
+       "build-fuzz/fuzz_$t" -seed="${AS_FUZZ_SEED:-1}" -max_total_time="$secs" \
+            -max_len="$(max_len "$t")" -timeout=10 \
             -rss_limit_mb=2048 -print_final_stats=1 -artifact_prefix="$art/" \
             "$out" $seeds >"$log" 2>&1; then
         runs=$(sed -n 's/^stat::number_of_executed_units: *//p' "$log")
