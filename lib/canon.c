@@ -1368,19 +1368,10 @@ static as_mol *fold_hydrogens(const as_mol *m, int *oom)
     return c;
 }
 
-as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out,
-                          as_error *err)
+/* Canonical SMILES of one connected molecule (the work of as_canon_smiles). */
+static as_status canon_connected(const as_mol *m, const as_canon_opts *opts, char **out,
+                                 as_error *err)
 {
-    as_canon_opts defaults;
-    if (!opts) {
-        as_canon_opts_init(&defaults);
-        opts = &defaults;
-    }
-    *out = NULL;
-    if (m->natoms == 0) {
-        *out = calloc(1, 1);
-        return *out ? AS_OK : as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
-    }
     int oom = 0;
     as_mol *folded = fold_hydrogens(m, &oom);
     if (oom)
@@ -1422,6 +1413,80 @@ as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out
     if (st != AS_OK || !*out)
         return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory while writing SMILES");
     return AS_OK;
+}
+
+/* Larger component first (the main molecule before its counter-ions), then by text. */
+static int component_cmp(const void *x, const void *y)
+{
+    const char *a = *(const char *const *)x, *b = *(const char *const *)y;
+    size_t la = strlen(a), lb = strlen(b);
+    if (la != lb)
+        return la > lb ? -1 : 1;
+    return strcmp(a, b);
+}
+
+as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out,
+                          as_error *err)
+{
+    as_canon_opts defaults;
+    if (!opts) {
+        as_canon_opts_init(&defaults);
+        opts = &defaults;
+    }
+    *out = NULL;
+    if (m->natoms == 0) {
+        *out = calloc(1, 1);
+        return *out ? AS_OK : as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    }
+    /* Components are written one by one and sorted: the same string whatever order they
+     * came in, and a salt of 20,000 ions costs 20,000 small canonicalisations. */
+    int *comp = malloc((size_t)m->natoms * sizeof(int));
+    if (!comp)
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    int ncomp = as_mol_components(m, comp);
+    if (ncomp <= 1) {
+        free(comp);
+        return canon_connected(m, opts, out, err);
+    }
+    char **parts = calloc((size_t)ncomp, sizeof(char *));
+    as_status st = parts ? AS_OK : as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    size_t total = 0;
+    for (int k = 0; k < ncomp && st == AS_OK; k++) {
+        as_mol *piece = as_mol_extract(m, comp, k);
+        if (!piece || as_perceive(piece, AS_PASS_RINGS, NULL, err) != AS_OK) {
+            as_mol_free(piece);
+            st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+            break;
+        }
+        piece->perceived = 1;
+        st = canon_connected(piece, opts, &parts[k], err);
+        as_mol_free(piece);
+        if (st == AS_OK)
+            total += strlen(parts[k]) + 1;
+    }
+    if (st == AS_OK) {
+        qsort(parts, (size_t)ncomp, sizeof(char *), component_cmp);
+        char *buf = malloc(total);
+        if (!buf) {
+            st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+        } else {
+            size_t used = 0;
+            for (int k = 0; k < ncomp; k++) {
+                size_t l = strlen(parts[k]);
+                if (k)
+                    buf[used++] = '.';
+                memcpy(buf + used, parts[k], l);
+                used += l;
+            }
+            buf[used] = '\0';
+            *out = buf;
+        }
+    }
+    for (int k = 0; parts && k < ncomp; k++)
+        free(parts[k]);
+    free(parts);
+    free(comp);
+    return st;
 }
 
 as_status as_canon_from_text(const char *text, size_t len, const as_canon_opts *opts,
