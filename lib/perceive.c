@@ -707,18 +707,19 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
     if (m->nrings == 0)
         return AS_OK;
     int n = m->natoms;
+    int nr = m->nrings, total = m->ring_start[nr];
+    as_status st = AS_OK;
     int *sys = malloc((size_t)n * sizeof(int));
     int *pi = malloc((size_t)n * sizeof(int));
-    char *ring_done = calloc((size_t)m->nrings, 1);
+    char *ring_done = calloc((size_t)nr, 1);
     int *buf = malloc((size_t)(n + 1) * sizeof(int));
     char *seen = calloc((size_t)n, 1);
-    if (!sys || !pi || !ring_done || !buf || !seen) {
-        free(sys);
-        free(pi);
-        free(ring_done);
-        free(buf);
-        free(seen);
-        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    int *at_start = calloc((size_t)n + 1, sizeof(int)); /* rings through each atom (CSR) */
+    int *at_ring = malloc((size_t)(total ? total : 1) * sizeof(int));
+    int *mark = malloc((size_t)nr * sizeof(int));
+    if (!sys || !pi || !ring_done || !buf || !seen || !at_start || !at_ring || !mark) {
+        st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+        goto out;
     }
     for (int i = 0; i < n; i++)
         sys[i] = i;
@@ -738,22 +739,7 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
         if (e - s <= 24 && ring_set_aromatic(m->ring_atoms + s, e - s, pi))
             ring_done[r] = 1;
     }
-    /* rings through each atom (CSR), so only rings that touch are paired */
-    int nr = m->nrings, total = m->ring_start[nr];
-    int *at_start = calloc((size_t)n + 1, sizeof(int));
-    int *at_ring = malloc((size_t)(total ? total : 1) * sizeof(int));
-    int *mark = malloc((size_t)nr * sizeof(int));
-    if (!at_start || !at_ring || !mark) {
-        free(at_start);
-        free(at_ring);
-        free(mark);
-        free(sys);
-        free(pi);
-        free(ring_done);
-        free(buf);
-        free(seen);
-        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
-    }
+    /* only rings that touch are paired */
     for (int j = 0; j < total; j++)
         at_start[m->ring_atoms[j] + 1]++;
     for (int i = 0; i < n; i++)
@@ -798,9 +784,6 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
             }
         }
     }
-    free(at_start);
-    free(at_ring);
-    free(mark);
     for (int r = 0; r < m->nrings; r++) {
         if (!ring_done[r])
             continue;
@@ -813,12 +796,16 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
                 m->bonds[b].aromatic = 1;
         }
     }
+out:
     free(sys);
     free(pi);
     free(ring_done);
     free(buf);
     free(seen);
-    return AS_OK;
+    free(at_start);
+    free(at_ring);
+    free(mark);
+    return st;
 }
 
 /* ---------------------------------------------------------------- pass: stereo */
