@@ -53,6 +53,8 @@ static void help(FILE *f)
           "  --format F        jsonl (default), tsv or csv\n"
           "  --keep-columns    carry every input column through after the output fields\n"
           "  -o FILE           write to FILE (a temporary name, renamed when complete)\n"
+          "  --rejects FILE    also write the input text of every record that failed, one\n"
+          "                    per line (after the header for CSV/TSV input), to fix and rerun\n"
           "  -j N              N worker threads (default 1); output order is input order\n"
           "  --on-error P      report (default): annotate everything, exit 3 when any record\n"
           "                    failed; ignore: the same, exit 0; stop: end after the first\n"
@@ -94,6 +96,8 @@ typedef struct slot {
     size_t ncols;
     char **names, **values;
     char warning[192];
+    char *raw;              /* the record's bytes, kept only for --rejects */
+    size_t raw_len;
     /* output */
     int status;
     as_error err;
@@ -118,6 +122,7 @@ static char *dup_or_null(const char *s)
 
 static void slot_clear(slot *s)
 {
+    free(s->raw);
     free(s->skip_reason);
     free(s->reaction);
     free(s->substrate);
@@ -161,9 +166,17 @@ static long column_of(const as_record *r, const char *v)
 }
 
 /* Copies what annotation needs out of the reader's record; -1 when out of memory. */
-static int slot_fill(slot *s, const as_record *r, int keep_columns)
+static int slot_fill(slot *s, const as_record *r, int keep_columns, int keep_raw)
 {
     s->line = r->line;
+    if (keep_raw && r->raw) {
+        s->raw = malloc(r->raw_len + 1);
+        if (!s->raw)
+            return -1;
+        memcpy(s->raw, r->raw, r->raw_len);
+        s->raw[r->raw_len] = '\0';
+        s->raw_len = r->raw_len;
+    }
     s->skipped = r->skipped;
     s->rec_err = r->err;
     int bad = 0;
@@ -208,6 +221,7 @@ typedef struct config {
     as_format out_format;
     int keep_columns;
     int memo;               /* 1: each worker keeps a record memo */
+    int keep_raw;           /* 1: records keep their input bytes (for --rejects) */
 } config;
 
 static char *products_json(const as_outcome *o)
@@ -733,7 +747,7 @@ static void *reader_main(void *arg)
         slot *s = &p->ring[p->head % p->cap];
         pthread_mutex_unlock(&p->mu);
         /* the slot is free and only this thread fills it */
-        int bad = slot_fill(s, &rec, p->cfg->keep_columns);
+        int bad = slot_fill(s, &rec, p->cfg->keep_columns, p->cfg->keep_raw);
         pthread_mutex_lock(&p->mu);
         if (bad) {
             p->fatal = 1;
@@ -793,12 +807,19 @@ typedef struct run_state {
     int stopped;       /* --on-error stop ended the run */
     int write_failed;
     as_error werr;
+    as_outfile *rejects;    /* --rejects: failed records' input lines, or NULL */
 } run_state;
 
 /* Writes one annotated slot and counts it; returns 0 to go on, 1 to stop. */
 static int emit(run_state *rs, slot *s)
 {
     if (write_slot(rs->cfg, rs->w, s, &rs->werr) != AS_OK) {
+        rs->write_failed = 1;
+        return 1;
+    }
+    if (rs->rejects && s->status == ST_ERROR &&
+        (as_outfile_write(rs->rejects, s->raw ? s->raw : "", s->raw_len, &rs->werr) != AS_OK ||
+         as_outfile_write(rs->rejects, "\n", 1, &rs->werr) != AS_OK)) {
         rs->write_failed = 1;
         return 1;
     }
@@ -816,6 +837,43 @@ static int emit(run_state *rs, slot *s)
     return 0;
 }
 
+/* Opens the --rejects file; for CSV and TSV input its first line is the input's header (CSV
+ * names quoted as RFC 4180 wants), so the rejects can be fixed and fed back as they are. */
+static as_status write_rejects_header(const char *path, const as_reader *r, as_outfile **out,
+                                      as_error *err)
+{
+    as_status st = as_outfile_open(path, out, err);
+    if (st != AS_OK)
+        return st;
+    as_format f = as_reader_format(r);
+    if (f != AS_FMT_CSV && f != AS_FMT_TSV)
+        return AS_OK;
+    const char *const *names = NULL;
+    size_t n = as_reader_columns(r, &names);
+    for (size_t i = 0; i < n && st == AS_OK; i++) {
+        const char *v = names[i];
+        if (i)
+            st = as_outfile_write(*out, f == AS_FMT_CSV ? "," : "\t", 1, err);
+        int quote = f == AS_FMT_CSV && strpbrk(v, ",\"\r\n") != NULL;
+        if (st == AS_OK && quote)
+            st = as_outfile_write(*out, "\"", 1, err);
+        for (const char *c = v; st == AS_OK && *c; c++) {
+            st = as_outfile_write(*out, c, 1, err);
+            if (st == AS_OK && quote && *c == '"')
+                st = as_outfile_write(*out, "\"", 1, err);
+        }
+        if (st == AS_OK && quote)
+            st = as_outfile_write(*out, "\"", 1, err);
+    }
+    if (st == AS_OK && n)
+        st = as_outfile_write(*out, "\n", 1, err);
+    if (st != AS_OK) {
+        as_outfile_abort(*out);
+        *out = NULL;
+    }
+    return st;
+}
+
 static int run_serial(run_state *rs, as_reader *r, as_error *rerr)
 {
     slot s;
@@ -831,7 +889,7 @@ static int run_serial(run_state *rs, as_reader *r, as_error *rerr)
         }
         if (rec.at_end)
             break;
-        if (slot_fill(&s, &rec, rs->cfg->keep_columns)) {
+        if (slot_fill(&s, &rec, rs->cfg->keep_columns, rs->cfg->keep_raw)) {
             slot_clear(&s);
             rerr->code = AS_ERR_NOMEM;
             snprintf(rerr->msg, sizeof rerr->msg, "out of memory");
@@ -957,7 +1015,7 @@ static void summary(FILE *f, const counts *c, const char *out_name)
 
 int as_cli_annotate(int argc, char **argv)
 {
-    const char *input = NULL, *out_path = NULL, *rules_dir = NULL;
+    const char *input = NULL, *out_path = NULL, *rules_dir = NULL, *rejects_path = NULL;
     int nworkers = 1, policy = POLICY_REPORT, quiet = 0, want_progress = 0;
     config cfg;
     memset(&cfg, 0, sizeof cfg);
@@ -1011,6 +1069,11 @@ int as_cli_annotate(int argc, char **argv)
             ropts.max_record = v;
         } else if (!strcmp(a, "--keep-columns")) {
             cfg.keep_columns = 1;
+        } else if (!strcmp(a, "--rejects")) {
+            if (!has_val)
+                return usage_error("--rejects needs a file name", NULL);
+            rejects_path = argv[++i];
+            cfg.keep_raw = 1;
         } else if (!strcmp(a, "-o") || !strcmp(a, "--output")) {
             if (!has_val)
                 return usage_error("-o needs a file name", NULL);
@@ -1065,7 +1128,7 @@ int as_cli_annotate(int argc, char **argv)
 
     as_rules *rules = NULL;
     as_reader *reader = NULL;
-    as_outfile *out = NULL;
+    as_outfile *out = NULL, *rejects = NULL;
     as_writer *w = NULL;
     int rc = 2;
     if (as_rules_load(rules_dir, &rules, &err) != AS_OK) {
@@ -1087,6 +1150,10 @@ int as_cli_annotate(int argc, char **argv)
         goto done;
     }
     if (as_outfile_open(out_path ? out_path : "-", &out, &err) != AS_OK) {
+        as_cli_print_error(stderr, "annotate", 0, NULL, 0, &err);
+        goto done;
+    }
+    if (rejects_path && write_rejects_header(rejects_path, reader, &rejects, &err) != AS_OK) {
         as_cli_print_error(stderr, "annotate", 0, NULL, 0, &err);
         goto done;
     }
@@ -1112,6 +1179,7 @@ int as_cli_annotate(int argc, char **argv)
     rs.cnt = &cnt;
     rs.prog = &prog;
     rs.policy = policy;
+    rs.rejects = rejects;
     as_error rerr;
     as_error_clear(&rerr);
     int r = nworkers == 1 ? run_serial(&rs, reader, &rerr)
@@ -1134,7 +1202,15 @@ int as_cli_annotate(int argc, char **argv)
         goto done;
     }
     if (rs.stopped) {
-        /* an incomplete file is not put in place; on standard output it is already out */
+        /* an incomplete file is not put in place; on standard output it is already out; the
+         * rejects file holds the failed record that stopped the run */
+        if (rejects) {
+            as_error rej;
+            as_outfile *f = rejects;
+            rejects = NULL;
+            if (as_outfile_close(f, &rej) != AS_OK)
+                as_cli_print_error(stderr, "annotate", 0, NULL, 0, &rej);
+        }
         as_status cst = out_path ? (as_outfile_abort(out), AS_OK) : as_outfile_close(out, &err);
         out = NULL;
         if (cst != AS_OK)
@@ -1146,6 +1222,10 @@ int as_cli_annotate(int argc, char **argv)
     }
     as_status cst = as_outfile_close(out, &err);
     out = NULL;
+    if (cst == AS_OK && rejects) {
+        cst = as_outfile_close(rejects, &err);
+        rejects = NULL;
+    }
     if (cst != AS_OK) {
         as_cli_print_error(stderr, "annotate", 0, NULL, 0, &err);
         rc = 1;
@@ -1157,6 +1237,7 @@ int as_cli_annotate(int argc, char **argv)
 done:
     as_writer_free(w);
     as_outfile_abort(out);
+    as_outfile_abort(rejects);
     as_reader_close(reader);
     as_rules_free(rules);
     return rc;

@@ -181,7 +181,30 @@ check([r['verdict'] for r in rows] == ['agrees', 'agrees', '', 'agrees'],
 check(rows[2]['error_code'] == 'branch' and rows[2]['error_column'] == '10',
       'csv: bad substrate reported at its column in the line', rows[2])
 
-# 7. usage errors
+# 7. --rejects: the input text of every failed record, the CSV header first
+with tempfile.TemporaryDirectory() as tmp:
+    rej = os.path.join(tmp, 'rejects.smi')
+    p = run([mixed, '--rejects', rej])
+    recs = [json.loads(l) for l in p.stdout.decode().splitlines()]
+    with open(mixed, 'rb') as fh:
+        lines = fh.read().split(b'\n')
+    want_rej = [lines[r['line'] - 1].rstrip(b'\r') for r in recs if r['status'] == 'error']
+    with open(rej, 'rb') as fh:
+        got_rej = fh.read().split(b'\n')[:-1]
+    check(len(got_rej) == len(want_rej), 'rejects: one line per error record',
+          f'{len(got_rej)} vs {len(want_rej)}')
+    check([g[:64] for g in got_rej] == [w[:64] for w in want_rej],
+          'rejects: each line is the failed record as read')
+    rej_csv = os.path.join(tmp, 'rejects.csv')
+    p = run([os.path.join(SRC, 'tests', 'data', 'annotate', 'batch.csv'), '-j', '2',
+             '--rejects', rej_csv])
+    with open(rej_csv, newline='') as fh:
+        rows = list(csv.reader(fh))
+    check(len(rows) == 2 and rows[0][0] == 'rxn_id', 'rejects: CSV header then the bad row', rows)
+    p = run([mixed, '--rejects', '/dev/full'])
+    check(p.returncode == 1, 'rejects on a full disk: exit 1', p.returncode)
+
+# 8. usage errors
 check(run(['--format', 'xml']).returncode == 2, 'bad --format: exit 2')
 check(run(['/no/such/file.smi']).returncode == 2, 'missing input: exit 2')
 check(run([mixed, '--reagents', 'NaOCl']).returncode == 2, 'unrecognised default reagents: exit 2')
