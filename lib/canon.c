@@ -167,7 +167,16 @@ static void refine(canon_ctx *c, int *rank, int seed)
     memset(inq, 0, (size_t)n * sizeof(int));
     int qhead = 0, qlen = 0;
     if (seed < 0) {
+        /* every cell but the (first) largest: atoms of a cell share their per-code neighbour
+         * counts (part of the initial invariant), so counts into the largest cell follow from
+         * the others (Hopcroft) */
+        int largest = 0;
+        for (int s = 0; s < n; s += cell_len[s])
+            if (cell_len[s] > cell_len[largest])
+                largest = s;
         for (int s = 0; s < n; s += cell_len[s]) {
+            if (s == largest)
+                continue;
             queue[qlen++] = s; /* qhead is 0 here */
             inq[s] = 1;
         }
@@ -336,7 +345,12 @@ static void initial_ranks(canon_ctx *c, int *rank)
         hi |= (uint64_t)(a->aromatic & 1) << 8;
         hi |= (uint64_t)(a->ring_size & 0xff); /* smallest ring: a graph invariant */
         inv[2 * i] = hi;
-        inv[2 * i + 1] = c->o->atom_maps ? (uint64_t)(unsigned)a->mapnum : 0;
+        /* neighbour count per bond code, packed as refine() counts them: with it in the
+         * invariant, refine() may leave the largest initial cell out of its queue */
+        uint64_t wdeg = 0;
+        for (int k = 0; k < a->degree; k++)
+            wdeg += (uint64_t)1 << (4 * (bond_code(&m->bonds[a->nbond[k]]) - 1));
+        inv[2 * i + 1] = (wdeg << 32) | (c->o->atom_maps ? (uint64_t)(unsigned)a->mapnum : 0);
     }
     rank_by_keys(c, inv, rank);
 }
