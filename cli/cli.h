@@ -27,6 +27,13 @@ int as_cli_usage_error(const char *cmd, const char *msg, const char *arg);
 /* Parses a whole string as a finite number; returns 1 on success. */
 int as_cli_parse_number(const char *s, double *v);
 
+/* Options shared by predict, check and plan: --temp C, --format text|json, --rules DIR.
+ * Looks at argv[*i]; when it is one of them, stores the value (temp_c may be NULL when the
+ * command takes no temperature), advances *i past the value and returns 1; returns 0 when
+ * argv[*i] is not a shared option; prints a usage error and returns -1 on a bad value. */
+int as_cli_shared_option(const char *cmd, int argc, char **argv, int *i, double *temp_c,
+                         const char **format, const char **rules_dir);
+
 /* The closing line of every human-readable report that mentions reagents. */
 extern const char as_cli_safety_footer[];
 

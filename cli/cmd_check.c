@@ -94,7 +94,7 @@ int as_cli_check(int argc, char **argv)
     as_check_opts_init(&opts);
     for (int i = 1; i < argc; i++) {
         const char *a = argv[i];
-        int has_val = i + 1 < argc;
+        int has_val = i + 1 < argc, shared;
         if (!strcmp(a, "--help") || !strcmp(a, "-h")) {
             help(stdout);
             return 0;
@@ -109,21 +109,10 @@ int as_cli_check(int argc, char **argv)
                 opts.predict.equiv <= 0)
                 return as_cli_usage_error("check", "--equiv needs a positive number", NULL);
             i++;
-        } else if (!strcmp(a, "--temp")) {
-            if (!has_val || !as_cli_parse_number(argv[i + 1], &opts.predict.temp_c) ||
-                opts.predict.temp_c < -273.15)
-                return as_cli_usage_error("check", "--temp needs a temperature in °C", NULL);
-            i++;
-        } else if (!strcmp(a, "--format")) {
-            if (!has_val)
-                return as_cli_usage_error("check", "--format needs text or json", NULL);
-            format = argv[++i];
-            if (strcmp(format, "text") && strcmp(format, "json"))
-                return as_cli_usage_error("check", "--format must be text or json, not", format);
-        } else if (!strcmp(a, "--rules")) {
-            if (!has_val)
-                return as_cli_usage_error("check", "--rules needs a directory", NULL);
-            rules_dir = argv[++i];
+        } else if ((shared = as_cli_shared_option("check", argc, argv, &i, &opts.predict.temp_c, &format,
+                                                  &rules_dir)) != 0) {
+            if (shared < 0)
+                return 2;
         } else if (a[0] == '-' && a[1] == '-') {
             return as_cli_usage_error("check", "unknown option", a);
         } else if (npos < 2) {

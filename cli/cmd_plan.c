@@ -186,26 +186,16 @@ int as_cli_plan(int argc, char **argv)
     as_check_opts_init(&opts);
     for (int i = 1; i < argc; i++) {
         const char *a = argv[i];
-        int has_val = i + 1 < argc;
+        int shared;
         if (!strcmp(a, "--help") || !strcmp(a, "-h")) {
             help(stdout);
             return 0;
         } else if (!strcmp(a, "--strict-stereo")) {
             opts.strict_stereo = 1;
-        } else if (!strcmp(a, "--temp")) {
-            if (!has_val || !as_cli_parse_number(argv[++i], &opts.predict.temp_c) ||
-                opts.predict.temp_c < -273.15)
-                return as_cli_usage_error("plan", "--temp needs a temperature in °C", NULL);
-        } else if (!strcmp(a, "--format")) {
-            if (!has_val)
-                return as_cli_usage_error("plan", "--format needs text or json", NULL);
-            format = argv[++i];
-            if (strcmp(format, "text") && strcmp(format, "json"))
-                return as_cli_usage_error("plan", "--format must be text or json, not", format);
-        } else if (!strcmp(a, "--rules")) {
-            if (!has_val)
-                return as_cli_usage_error("plan", "--rules needs a directory", NULL);
-            rules_dir = argv[++i];
+        } else if ((shared = as_cli_shared_option("plan", argc, argv, &i, &opts.predict.temp_c, &format,
+                                                  &rules_dir)) != 0) {
+            if (shared < 0)
+                return 2;
         } else if (a[0] == '-' && a[1] == '-') {
             return as_cli_usage_error("plan", "unknown option", a);
         } else if (npos < 2) {

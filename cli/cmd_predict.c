@@ -109,7 +109,7 @@ int as_cli_predict(int argc, char **argv)
             help(stdout);
             return 0;
         }
-        int has_val = i + 1 < argc;
+        int has_val = i + 1 < argc, shared;
         if (!strcmp(a, "--reagents")) {
             if (!has_val)
                 return as_cli_usage_error("predict", "--reagents needs a value", NULL);
@@ -122,20 +122,10 @@ int as_cli_predict(int argc, char **argv)
             if (!has_val || !as_cli_parse_number(argv[i + 1], &opts.equiv) || opts.equiv <= 0)
                 return as_cli_usage_error("predict", "--equiv needs a positive number", NULL);
             i++;
-        } else if (!strcmp(a, "--temp")) {
-            if (!has_val || !as_cli_parse_number(argv[i + 1], &opts.temp_c) || opts.temp_c < -273.15)
-                return as_cli_usage_error("predict", "--temp needs a temperature in °C", NULL);
-            i++;
-        } else if (!strcmp(a, "--format")) {
-            if (!has_val)
-                return as_cli_usage_error("predict", "--format needs text or json", NULL);
-            format = argv[++i];
-            if (strcmp(format, "text") && strcmp(format, "json"))
-                return as_cli_usage_error("predict", "--format must be text or json, not", format);
-        } else if (!strcmp(a, "--rules")) {
-            if (!has_val)
-                return as_cli_usage_error("predict", "--rules needs a directory", NULL);
-            rules_dir = argv[++i];
+        } else if ((shared = as_cli_shared_option("predict", argc, argv, &i, &opts.temp_c, &format,
+                                                  &rules_dir)) != 0) {
+            if (shared < 0)
+                return 2;
         } else if (a[0] == '-' && a[1] == '-') {
             return as_cli_usage_error("predict", "unknown option", a);
         } else if (!smiles) {

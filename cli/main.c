@@ -50,6 +50,39 @@ int as_cli_parse_number(const char *s, double *v)
     return end && end != s && *end == '\0' && isfinite(*v);
 }
 
+int as_cli_shared_option(const char *cmd, int argc, char **argv, int *i, double *temp_c,
+                         const char **format, const char **rules_dir)
+{
+    const char *a = argv[*i];
+    int has_val = *i + 1 < argc;
+    if (temp_c && !strcmp(a, "--temp")) {
+        if (!has_val || !as_cli_parse_number(argv[*i + 1], temp_c) || *temp_c < -273.15) {
+            as_cli_usage_error(cmd, "--temp needs a temperature in °C", NULL);
+            return -1;
+        }
+    } else if (!strcmp(a, "--format")) {
+        if (!has_val) {
+            as_cli_usage_error(cmd, "--format needs text or json", NULL);
+            return -1;
+        }
+        if (strcmp(argv[*i + 1], "text") && strcmp(argv[*i + 1], "json")) {
+            as_cli_usage_error(cmd, "--format must be text or json, not", argv[*i + 1]);
+            return -1;
+        }
+        *format = argv[*i + 1];
+    } else if (!strcmp(a, "--rules")) {
+        if (!has_val) {
+            as_cli_usage_error(cmd, "--rules needs a directory", NULL);
+            return -1;
+        }
+        *rules_dir = argv[*i + 1];
+    } else {
+        return 0;
+    }
+    (*i)++;
+    return 1;
+}
+
 void as_cli_print_error(FILE *f, const char *cmd, long line, const char *text, size_t len,
                         const as_error *err)
 {
