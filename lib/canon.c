@@ -165,6 +165,9 @@ static void refine(canon_ctx *c, int *rank, int seed)
     memset(cnt, 0, (size_t)n * sizeof(int));
     memset(tcount, 0, (size_t)n * sizeof(int));
     memset(inq, 0, (size_t)n * sizeof(int));
+    int ncells = 0;
+    for (int s = 0; s < n; s += cell_len[s])
+        ncells++;
     int qhead = 0, qlen = 0;
     if (seed < 0) {
         /* every cell but the (first) largest: atoms of a cell share their per-code neighbour
@@ -190,7 +193,9 @@ static void refine(canon_ctx *c, int *rank, int seed)
             inq[seed + 1] = 1;
         }
     }
-    while (qlen) {
+    /* a discrete partition (every cell one atom) is equitable: the rest of the queue has
+     * nothing left to split */
+    while (qlen && ncells < n) {
         int w = queue[qhead];
         if (++qhead == n) /* a ring of n: no cell is queued twice */
             qhead = 0;
@@ -202,6 +207,8 @@ static void refine(canon_ctx *c, int *rank, int seed)
             const as_atom *a = &m->atoms[elems[k]];
             for (int j = 0; j < a->degree; j++) {
                 int u = a->nbr[j];
+                if (cell_len[cell_of[u]] == 1)
+                    continue; /* a single atom cannot split */
                 int code = bond_code(&m->bonds[a->nbond[j]]);
                 if (cnt[u] == 0) {
                     /* first touch: move u to the tail of its cell */
@@ -254,6 +261,7 @@ static void refine(canon_ctx *c, int *rank, int seed)
             }
             if (nfrag == 1)
                 continue;
+            ncells += nfrag - 1;
             /* set cell data and find the largest fragment */
             fs = x;
             while (fs < x + len) {
@@ -295,13 +303,29 @@ static void refine(canon_ctx *c, int *rank, int seed)
 }
 
 /* rank[i] = number of atoms whose 128-bit key (inv[2i], inv[2i+1]) is smaller. */
+static int key_less(const uint64_t *inv, int y, int x)
+{
+    return inv[2 * y] < inv[2 * x] || (inv[2 * y] == inv[2 * x] && inv[2 * y + 1] < inv[2 * x + 1]);
+}
+
 static void rank_by_keys(canon_ctx *c, const uint64_t *inv, int *rank)
 {
     int n = c->n;
     int *a = c->order, *t = c->tmp;
     for (int i = 0; i < n; i++)
         a[i] = i;
-    for (int w = 1; w < n; w *= 2) {
+    if (n <= 32) {
+        /* small molecules (most of them): a stable insertion sort beats the merge passes */
+        for (int i = 1; i < n; i++) {
+            int x = a[i], j = i - 1;
+            while (j >= 0 && key_less(inv, x, a[j])) {
+                a[j + 1] = a[j];
+                j--;
+            }
+            a[j + 1] = x;
+        }
+    }
+    for (int w = 1; w < n && n > 32; w *= 2) {
         for (int lo = 0; lo < n; lo += 2 * w) {
             int mid = lo + w < n ? lo + w : n, hi = lo + 2 * w < n ? lo + 2 * w : n;
             int i = lo, j = mid, k = lo;
@@ -351,6 +375,43 @@ static void initial_ranks(canon_ctx *c, int *rank)
         for (int k = 0; k < a->degree; k++)
             wdeg += (uint64_t)1 << (4 * (bond_code(&m->bonds[a->nbond[k]]) - 1));
         inv[2 * i + 1] = (wdeg << 32) | (c->o->atom_maps ? (uint64_t)(unsigned)a->mapnum : 0);
+    }
+    if (n <= 64) {
+        /* Most molecules: no isotope and no map number differs between atoms, so the key
+         * fits one word next to the atom index (same order as the two-word key; equal keys
+         * stay in atom order) and sorting plain words is cheap. */
+        uint64_t iso_map_hi = inv[0] & ((uint64_t)0xffff << 32), map_lo = inv[1] & 0xffffffffu;
+        int plain = 1;
+        for (int i = 1; i < n && plain; i++)
+            plain = (inv[2 * i] & ((uint64_t)0xffff << 32)) == iso_map_hi &&
+                    (inv[2 * i + 1] & 0xffffffffu) == map_lo;
+        if (plain) {
+            uint64_t *k = inv + 2 * n; /* 11 n ints: room for 3 n words */
+            for (int i = 0; i < n; i++) {
+                uint64_t hi = inv[2 * i], wdeg = inv[2 * i + 1] >> 32;
+                /* the fields of hi without isotope: degree (at most AS_MAX_DEGREE, 4 bits),
+                 * element, charge, H (8 bits each), aromatic (1), ring size (8), then the
+                 * per-code neighbour counts (16): 53 bits */
+                uint64_t w = (hi >> 56) << 49 | ((hi >> 48) & 0xff) << 41 |
+                             ((hi >> 16) & 0xffff) << 25 | ((hi >> 8) & 1) << 24 |
+                             (hi & 0xff) << 16 | wdeg;
+                k[i] = (w << 6) | (uint64_t)i; /* and 6 bits of atom index */
+            }
+            for (int i = 1; i < n; i++) {
+                uint64_t x = k[i];
+                int j = i - 1;
+                while (j >= 0 && k[j] > x) {
+                    k[j + 1] = k[j];
+                    j--;
+                }
+                k[j + 1] = x;
+            }
+            for (int i = 0; i < n; i++) {
+                int x = (int)(k[i] & 63);
+                rank[x] = i > 0 && (k[i - 1] >> 6) == (k[i] >> 6) ? rank[k[i - 1] & 63] : i;
+            }
+            return;
+        }
     }
     rank_by_keys(c, inv, rank);
 }
