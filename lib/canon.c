@@ -640,16 +640,18 @@ typedef struct writer {
     signed char *dir; /* per bond: 0 none, +1 '/', -1 '\\' in written direction */
     int *written_first; /* per bond: the atom written first */
     int *stack, *it, *nbuf, *nchild, *byrank, *ci; /* traversal scratch */
+    int *pbond;      /* per atom: the bond to its parent, -1 for a root */
+    int *nrb_at;     /* per atom: ring bonds opened or closed there */
 } writer;
 
 /* Neighbours of a sorted by rank. */
-static void sorted_nbrs(const writer *w, int a, int *out, int *n)
+static void sorted_nbrs(const writer *w, int a, int *out)
 {
     const as_atom *at = &w->c->m->atoms[a];
-    *n = at->degree;
-    for (int i = 0; i < at->degree; i++)
+    int n = at->degree;
+    for (int i = 0; i < n; i++)
         out[i] = at->nbr[i];
-    for (int i = 1; i < *n; i++) {
+    for (int i = 1; i < n; i++) {
         int x = out[i], j = i - 1;
         while (j >= 0 && w->rank[out[j]] > w->rank[x]) {
             out[j + 1] = out[j];
@@ -666,11 +668,13 @@ static int build_tree(writer *w)
     int n = w->c->n;
     int *stack = w->stack, *it = w->it, *nb = w->nbuf, *nchild = w->nchild, *byrank = w->byrank;
     memset(nchild, 0, (size_t)n * sizeof(int));
+    memset(w->nrb_at, 0, (size_t)n * sizeof(int));
     for (int i = 0; i < n; i++)
         byrank[w->rank[i]] = i;
     for (int i = 0; i < n; i++) {
         w->visited[i] = -1;
         w->parent[i] = -1;
+        w->pbond[i] = -1;
     }
     int nvis = 0;
     for (int r = 0; r < n; r++) {
@@ -682,8 +686,7 @@ static int build_tree(writer *w)
         w->visited[s] = nvis++;
         w->seq[w->nseq++] = s;
         it[s] = 0;
-        int d;
-        sorted_nbrs(w, s, nb + (size_t)s * AS_MAX_DEGREE, &d);
+        sorted_nbrs(w, s, nb + (size_t)s * AS_MAX_DEGREE);
         while (top) {
             int u = stack[top - 1];
             const int *un = nb + (size_t)u * AS_MAX_DEGREE;
@@ -698,12 +701,15 @@ static int build_tree(writer *w)
                 w->visited[v] = nvis++;
                 w->seq[w->nseq++] = v;
                 w->parent[v] = u;
+                w->pbond[v] = as_mol_bond_between(m, u, v);
                 nchild[u]++;
                 it[v] = 0;
-                sorted_nbrs(w, v, nb + (size_t)v * AS_MAX_DEGREE, &d);
+                sorted_nbrs(w, v, nb + (size_t)v * AS_MAX_DEGREE);
                 stack[top++] = v;
             } else if (w->visited[v] < w->visited[u]) {
                 /* back edge to an ancestor: a ring bond, opened at v, closed at u */
+                w->nrb_at[u]++;
+                w->nrb_at[v]++;
                 int b = as_mol_bond_between(m, u, v);
                 w->rb[w->nrb].opener = v;
                 w->rb[w->nrb].closer = u;
@@ -731,6 +737,8 @@ static int build_tree(writer *w)
 static int ring_bonds_at(const writer *w, int a, int *out)
 {
     int n = 0;
+    if (!w->nrb_at[a])
+        return 0;
     for (int pass = 0; pass < 2; pass++) {
         int start = n;
         for (int i = 0; i < w->nrb; i++) {
@@ -1074,7 +1082,6 @@ static void write_digit(sbuf *sb, int d)
 /* Pass 2: emit atoms in visit order with branches and ring digits. */
 static as_status emit(writer *w, sbuf *sb)
 {
-    const as_mol *m = w->c->m;
     int n = w->c->n;
     char used[100] = {0};
     /* explicit stack of (atom, next child index); branch parentheses by position */
@@ -1135,7 +1142,7 @@ static as_status emit(writer *w, sbuf *sb)
             ci[top - 1] = i + 1;
             if (i + 1 < nch)
                 sb_putc(sb, '(');
-            write_bond(w, sb, as_mol_bond_between(m, u, v), u);
+            write_bond(w, sb, w->pbond[v], u);
             stack[top] = v;
             ci[top] = -1;
             top++;
@@ -1166,6 +1173,8 @@ static char *write_smiles(canon_ctx *c, const int *rank, as_status *st)
     w.byrank = p, p += na;
     w.ci = p, p += na;
     w.nbuf = p, p += na * AS_MAX_DEGREE;
+    w.pbond = p, p += na;
+    w.nrb_at = p, p += na;
     w.written_first = p;
     w.rb = c->wrb;
     w.dir = c->wdir;
@@ -1331,7 +1340,7 @@ static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
     size_t sz_cls = part(na, sizeof(int)), sz_tetra = part(nt, 1), sz_db = part(nd, 1);
     size_t sz_near = part(na, 1), sz_order = part(na, sizeof(int)), sz_tmp = part(na, sizeof(int));
     size_t sz_scratch = part(na * 11, sizeof(int));
-    size_t sz_wblock = part(na * (11 + AS_MAX_DEGREE) + 1 + nbd, sizeof(int));
+    size_t sz_wblock = part(na * (13 + AS_MAX_DEGREE) + 1 + nbd, sizeof(int));
     size_t sz_wrb = part(nbd, sizeof(ringbond)), sz_wdir = part(nbd, 1);
     char *b = malloc(sz_cls + sz_tetra + sz_db + sz_near + sz_order + sz_tmp + sz_scratch +
                      sz_wblock + sz_wrb + sz_wdir);
