@@ -96,6 +96,10 @@ typedef struct canon_ctx {
     size_t best_len;
     int leaves;
     as_status st;
+    /* refine()'s cell arrays in scratch still describe the partition it last wrote (with
+     * its counters zero): a refinement that starts from there may skip the set-up */
+    int part_ok;
+    int part_cells; /* number of cells of that partition */
 } canon_ctx;
 
 static int bond_code(const as_bond *b)
@@ -141,33 +145,53 @@ static void sort_by_key(int *v, int n, const int *key, int *tmp)
  * O(m log n), not one full pass per bond of the chain. Fragments are ordered by their
  * neighbour counts, so the result depends only on the input partition, never on atom
  * numbering. */
-static void refine(canon_ctx *c, int *rank, int seed)
+/* The cell arrays refine() works on, in c->scratch (11 n ints). */
+typedef struct cells {
+    int *elems, *pos, *cell_of, *cell_len, *cnt, *tcount, *touched, *tcells, *queue, *inq, *tmp;
+} cells;
+
+static cells cells_of(const canon_ctx *c)
+{
+    int n = c->n, *p = c->scratch;
+    cells x = {p,         p + n,     p + 2 * n, p + 3 * n, p + 4 * n, p + 5 * n,
+               p + 6 * n, p + 7 * n, p + 8 * n, p + 9 * n, p + 10 * n};
+    return x;
+}
+
+/* prepared: the caller has set c->scratch's cell arrays (elems, pos, cell_of, cell_len) to
+ * rank, with cnt, tcount and inq zero and c->part_cells cells; else they are built here. */
+static void refine(canon_ctx *c, int *rank, int seed, int prepared)
 {
     const as_mol *m = c->m;
     int n = c->n;
     if (n == 0)
         return;
-    int *elems = c->scratch, *pos = elems + n, *cell_of = pos + n, *cell_len = cell_of + n;
-    int *cnt = cell_len + n, *tcount = cnt + n, *touched = tcount + n, *tcells = touched + n;
-    int *queue = tcells + n, *inq = queue + n, *tmp = inq + n;
-    /* counting sort of atoms by rank: cells are contiguous, starting at their rank */
-    memset(cell_len, 0, (size_t)n * sizeof(int));
-    for (int v = 0; v < n; v++)
-        cell_len[rank[v]]++;
-    memcpy(tcount, cell_len, (size_t)n * sizeof(int)); /* fill cursor, reset below */
-    for (int v = 0; v < n; v++) {
-        int s = rank[v];
-        int k = s + cell_len[s] - tcount[s]--;
-        elems[k] = v;
-        pos[v] = k;
-        cell_of[v] = s;
-    }
-    memset(cnt, 0, (size_t)n * sizeof(int));
-    memset(tcount, 0, (size_t)n * sizeof(int));
-    memset(inq, 0, (size_t)n * sizeof(int));
+    cells cs = cells_of(c);
+    int *elems = cs.elems, *pos = cs.pos, *cell_of = cs.cell_of, *cell_len = cs.cell_len;
+    int *cnt = cs.cnt, *tcount = cs.tcount, *touched = cs.touched, *tcells = cs.tcells;
+    int *queue = cs.queue, *inq = cs.inq, *tmp = cs.tmp;
     int ncells = 0;
-    for (int s = 0; s < n; s += cell_len[s])
-        ncells++;
+    if (prepared) {
+        ncells = c->part_cells;
+    } else {
+        /* counting sort of atoms by rank: cells are contiguous, starting at their rank */
+        memset(cell_len, 0, (size_t)n * sizeof(int));
+        for (int v = 0; v < n; v++)
+            cell_len[rank[v]]++;
+        memcpy(tcount, cell_len, (size_t)n * sizeof(int)); /* fill cursor, reset below */
+        for (int v = 0; v < n; v++) {
+            int s = rank[v];
+            int k = s + cell_len[s] - tcount[s]--;
+            elems[k] = v;
+            pos[v] = k;
+            cell_of[v] = s;
+        }
+        memset(cnt, 0, (size_t)n * sizeof(int));
+        memset(tcount, 0, (size_t)n * sizeof(int));
+        memset(inq, 0, (size_t)n * sizeof(int));
+        for (int s = 0; s < n; s += cell_len[s])
+            ncells++;
+    }
     int qhead = 0, qlen = 0;
     if (seed < 0) {
         /* every cell but the (first) largest: atoms of a cell share their per-code neighbour
@@ -238,6 +262,30 @@ static void refine(canon_ctx *c, int *rank, int seed)
         for (int i = 0; i < ntc; i++) {
             int x = tcells[i], len = cell_len[x], t = tcount[x];
             int tail = x + len - t;
+            if (t == 1) {
+                /* the common case: one atom of the cell touched (never a single-atom cell,
+                 * those are skipped). It splits off last; the rest keeps the start and is
+                 * the larger or equal part, so only the new singleton is queued. */
+                int u = elems[tail];
+                cell_len[x] = len - 1;
+                cell_len[tail] = 1;
+                cell_of[u] = tail;
+                ncells++;
+                if (!inq[tail]) {
+                    int qt = qhead + qlen++;
+                    queue[qt < n ? qt : qt - n] = tail;
+                    inq[tail] = 1;
+                }
+                continue;
+            }
+            if (t == len) {
+                /* the whole cell touched alike: no split */
+                int k = x + 1;
+                while (k < x + len && cnt[elems[k]] == cnt[elems[x]])
+                    k++;
+                if (k == x + len)
+                    continue;
+            }
             sort_by_key(elems + tail, t, cnt, tmp);
             for (int k = tail; k < x + len; k++)
                 pos[elems[k]] = k;
@@ -299,6 +347,14 @@ static void refine(canon_ctx *c, int *rank, int seed)
         for (int i = 0; i < ntc; i++)
             tcount[tcells[i]] = 0;
     }
+    /* cells left queued at an early stop: the next prepared call expects inq zero */
+    for (; qlen; qlen--) {
+        inq[queue[qhead]] = 0;
+        if (++qhead == n)
+            qhead = 0;
+    }
+    c->part_ok = 1;
+    c->part_cells = ncells;
     memcpy(rank, cell_of, (size_t)n * sizeof(int));
 }
 
@@ -353,7 +409,7 @@ static void rank_by_keys(canon_ctx *c, const uint64_t *inv, int *rank)
 
 /* Initial invariants → ranks: degree, element, isotope, charge, H count, aromaticity, ring
  * size (smallest ring through the atom), then the atom class when maps are written. */
-static void initial_ranks(canon_ctx *c, int *rank)
+static int initial_ranks(canon_ctx *c, int *rank)
 {
     const as_mol *m = c->m;
     int n = c->n;
@@ -406,14 +462,30 @@ static void initial_ranks(canon_ctx *c, int *rank)
                 }
                 k[j + 1] = x;
             }
+            /* the sorted order is refine()'s cell arrays already (inv is not needed any
+             * more; k lies past them) */
+            cells cs = cells_of(c);
+            memset(cs.cell_len, 0, (size_t)n * sizeof(int));
+            int ncells = 0;
             for (int i = 0; i < n; i++) {
                 int x = (int)(k[i] & 63);
-                rank[x] = i > 0 && (k[i - 1] >> 6) == (k[i] >> 6) ? rank[k[i - 1] & 63] : i;
+                int same = i > 0 && (k[i - 1] >> 6) == (k[i] >> 6);
+                rank[x] = same ? rank[k[i - 1] & 63] : i;
+                ncells += !same;
+                cs.elems[i] = x;
+                cs.pos[x] = i;
+                cs.cell_of[x] = rank[x];
+                cs.cell_len[rank[x]]++;
             }
-            return;
+            memset(cs.cnt, 0, (size_t)n * sizeof(int));
+            memset(cs.tcount, 0, (size_t)n * sizeof(int));
+            memset(cs.inq, 0, (size_t)n * sizeof(int));
+            c->part_cells = ncells;
+            return 1;
         }
     }
     rank_by_keys(c, inv, rank);
+    return 0;
 }
 
 /* ---------------------------------------------------------------- real stereo elements */
@@ -591,7 +663,7 @@ static void stereo_refine(canon_ctx *c)
         rank_by_keys(c, keys, rank);
         free(keys);
         int before = 0, after = 0;
-        refine(c, rank, -1);
+        refine(c, rank, -1, 0);
         /* count classes to see whether anything split */
         char *seen = calloc((size_t)(n ? n : 1), 1);
         if (!seen) {
@@ -621,6 +693,7 @@ static void stereo_refine(canon_ctx *c)
         if (c->st != AS_OK)
             break;
     }
+    c->part_ok = 0; /* the cell arrays may hold a partition that was not kept */
     free(desc);
     free(rank);
 }
@@ -1229,30 +1302,45 @@ static int ring_bond_count(const as_mol *m, int a)
 static void explore(canon_ctx *c, int *rank, int seed)
 {
     int n = c->n;
-    int *work = malloc((size_t)(n ? n : 1) * sizeof(int));
-    int *cnt = calloc((size_t)(n ? n : 1), sizeof(int));
-    if (!work || !cnt) {
-        free(work);
-        free(cnt);
-        c->st = AS_ERR_NOMEM;
-        return;
-    }
+    int *work = NULL, *cnt = NULL; /* allocated when first needed */
+    /* -2: rank is the partition refine() last wrote when c->part_ok says so */
+    int prepared = 0, valid = seed == -2 && c->part_ok;
     for (;;) {
-        if (seed != -2)
-            refine(c, rank, seed);
-        memset(cnt, 0, (size_t)n * sizeof(int));
-        for (int i = 0; i < n; i++)
-            cnt[rank[i]]++;
+        if (seed != -2) {
+            refine(c, rank, seed, prepared);
+            valid = 1;
+        }
         /* the tie to break: the first tied class next to a stereo element when there is
          * one (explored exhaustively below), else simply the first tied class */
         int r = -1, r_near = -1;
-        for (int i = 0; i < n; i++)
-            if (cnt[rank[i]] > 1) {
-                if (r < 0 || rank[i] < r)
-                    r = rank[i];
-                if (c->has_stereo && c->near_stereo[i] && (r_near < 0 || rank[i] < r_near))
-                    r_near = rank[i];
+        if (valid) {
+            /* the cell arrays describe rank: cell sizes are at hand */
+            const int *cell_len = cells_of(c).cell_len;
+            if (c->part_cells < n) {
+                for (int st = 0; st < n && r < 0; st += cell_len[st])
+                    if (cell_len[st] > 1)
+                        r = st;
+                for (int i = 0; i < n && c->has_stereo; i++)
+                    if (c->near_stereo[i] && cell_len[rank[i]] > 1 &&
+                        (r_near < 0 || rank[i] < r_near))
+                        r_near = rank[i];
             }
+        } else {
+            if (!cnt && !(cnt = malloc((size_t)(n ? n : 1) * sizeof(int)))) {
+                c->st = AS_ERR_NOMEM;
+                break;
+            }
+            memset(cnt, 0, (size_t)n * sizeof(int));
+            for (int i = 0; i < n; i++)
+                cnt[rank[i]]++;
+            for (int i = 0; i < n; i++)
+                if (cnt[rank[i]] > 1) {
+                    if (r < 0 || rank[i] < r)
+                        r = rank[i];
+                    if (c->has_stereo && c->near_stereo[i] && (r_near < 0 || rank[i] < r_near))
+                        r_near = rank[i];
+                }
+        }
         if (r_near >= 0)
             r = r_near;
         if (r < 0) {
@@ -1287,10 +1375,15 @@ static void explore(canon_ctx *c, int *rank, int seed)
                 }
                 if (c->leaves >= (c->has_stereo ? MAX_LEAVES : MAX_LEAVES / 4))
                     break;
+                if (!work && !(work = malloc((size_t)n * sizeof(int)))) {
+                    c->st = AS_ERR_NOMEM;
+                    break;
+                }
                 memcpy(work, rank, (size_t)n * sizeof(int));
                 for (int j = 0; j < n; j++)
                     if (work[j] == r && j != i)
                         work[j] = r + 1;
+                valid = 0; /* the branch's refinement overwrites the cell arrays */
                 explore(c, work, r);
                 if (c->st != AS_OK)
                     break;
@@ -1300,6 +1393,23 @@ static void explore(canon_ctx *c, int *rank, int seed)
         for (int j = 0; j < n; j++)
             if (rank[j] == r && j != first)
                 rank[j] = r + 1;
+        prepared = 0;
+        if (valid) {
+            /* the same split in the cell arrays: `first` moves to the front of cell r and
+             * stays alone there, the rest becomes cell r + 1 */
+            cells cs = cells_of(c);
+            int len = cs.cell_len[r], pf = cs.pos[first], other = cs.elems[r];
+            cs.elems[pf] = other;
+            cs.pos[other] = pf;
+            cs.elems[r] = first;
+            cs.pos[first] = r;
+            cs.cell_len[r] = 1;
+            cs.cell_len[r + 1] = len - 1;
+            for (int k = r + 1; k < r + len; k++)
+                cs.cell_of[cs.elems[k]] = r + 1;
+            c->part_cells++;
+            prepared = 1;
+        }
         seed = r;
     }
     free(work);
@@ -1360,10 +1470,8 @@ static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
     memset(c->real_tetra, 0, nt);
     memset(c->real_db, 0, nd);
     memset(c->near_stereo, 0, na);
-    initial_ranks(c, c->cls);
-    if (c->st != AS_OK)
-        return c->st;
-    refine(c, c->cls, -1);
+    int prepared = initial_ranks(c, c->cls);
+    refine(c, c->cls, -1, prepared);
     return AS_OK;
 }
 
