@@ -414,45 +414,29 @@ static int initial_ranks(canon_ctx *c, int *rank)
     const as_mol *m = c->m;
     int n = c->n;
     uint64_t *inv = (uint64_t *)(void *)c->scratch; /* 11 n ints hold 2 n keys */
-    for (int i = 0; i < n; i++) {
-        const as_atom *a = &m->atoms[i];
-        uint64_t hi = 0;
-        hi |= (uint64_t)(a->degree & 0xff) << 56;
-        hi |= (uint64_t)(a->elem & 0xff) << 48;
-        hi |= (uint64_t)((a->isotope + 1) & 0xffff) << 32;
-        hi |= (uint64_t)((a->charge + 64) & 0xff) << 24;
-        hi |= (uint64_t)(a->total_h & 0xff) << 16;
-        hi |= (uint64_t)(a->aromatic & 1) << 8;
-        hi |= (uint64_t)(a->ring_size & 0xff); /* smallest ring: a graph invariant */
-        inv[2 * i] = hi;
-        /* neighbour count per bond code, packed as refine() counts them: with it in the
-         * invariant, refine() may leave the largest initial cell out of its queue */
-        uint64_t wdeg = 0;
-        for (int k = 0; k < a->degree; k++)
-            wdeg += (uint64_t)1 << (4 * (bond_code(&m->bonds[a->nbond[k]]) - 1));
-        inv[2 * i + 1] = (wdeg << 32) | (c->o->atom_maps ? (uint64_t)(unsigned)a->mapnum : 0);
-    }
-    if (n <= 64) {
+    if (n > 0 && n <= 64) {
         /* Most molecules: no isotope and no map number differs between atoms, so the key
-         * fits one word next to the atom index (same order as the two-word key; equal keys
-         * stay in atom order) and sorting plain words is cheap. */
-        uint64_t iso_map_hi = inv[0] & ((uint64_t)0xffff << 32), map_lo = inv[1] & 0xffffffffu;
+         * fits one word next to the atom index (same order as the two-word key below; equal
+         * keys stay in atom order) and sorting plain words is cheap. */
+        uint64_t *k = inv + 2 * n; /* past the cell arrays refine() is given below */
+        int iso0 = m->atoms[0].isotope, map0 = c->o->atom_maps ? m->atoms[0].mapnum : 0;
         int plain = 1;
-        for (int i = 1; i < n && plain; i++)
-            plain = (inv[2 * i] & ((uint64_t)0xffff << 32)) == iso_map_hi &&
-                    (inv[2 * i + 1] & 0xffffffffu) == map_lo;
+        for (int i = 0; i < n && plain; i++) {
+            const as_atom *a = &m->atoms[i];
+            plain = a->isotope == iso0 && (!c->o->atom_maps || a->mapnum == map0);
+            uint64_t wdeg = 0;
+            for (int j = 0; j < a->degree; j++)
+                wdeg += (uint64_t)1 << (4 * (bond_code(&m->bonds[a->nbond[j]]) - 1));
+            /* degree (at most AS_MAX_DEGREE, 4 bits), element, charge, H (8 bits each),
+             * aromatic (1), ring size (8), per-code neighbour counts (16): 53 bits, then 6
+             * bits of atom index */
+            uint64_t w = (uint64_t)(a->degree & 0xf) << 49 | (uint64_t)(a->elem & 0xff) << 41 |
+                         (uint64_t)((a->charge + 64) & 0xff) << 33 |
+                         (uint64_t)(a->total_h & 0xff) << 25 | (uint64_t)(a->aromatic & 1) << 24 |
+                         (uint64_t)(a->ring_size & 0xff) << 16 | wdeg;
+            k[i] = (w << 6) | (uint64_t)i;
+        }
         if (plain) {
-            uint64_t *k = inv + 2 * n; /* 11 n ints: room for 3 n words */
-            for (int i = 0; i < n; i++) {
-                uint64_t hi = inv[2 * i], wdeg = inv[2 * i + 1] >> 32;
-                /* the fields of hi without isotope: degree (at most AS_MAX_DEGREE, 4 bits),
-                 * element, charge, H (8 bits each), aromatic (1), ring size (8), then the
-                 * per-code neighbour counts (16): 53 bits */
-                uint64_t w = (hi >> 56) << 49 | ((hi >> 48) & 0xff) << 41 |
-                             ((hi >> 16) & 0xffff) << 25 | ((hi >> 8) & 1) << 24 |
-                             (hi & 0xff) << 16 | wdeg;
-                k[i] = (w << 6) | (uint64_t)i; /* and 6 bits of atom index */
-            }
             for (int i = 1; i < n; i++) {
                 uint64_t x = k[i];
                 int j = i - 1;
@@ -462,8 +446,7 @@ static int initial_ranks(canon_ctx *c, int *rank)
                 }
                 k[j + 1] = x;
             }
-            /* the sorted order is refine()'s cell arrays already (inv is not needed any
-             * more; k lies past them) */
+            /* the sorted order is refine()'s cell arrays already */
             cells cs = cells_of(c);
             memset(cs.cell_len, 0, (size_t)n * sizeof(int));
             int ncells = 0;
@@ -483,6 +466,24 @@ static int initial_ranks(canon_ctx *c, int *rank)
             c->part_cells = ncells;
             return 1;
         }
+    }
+    for (int i = 0; i < n; i++) {
+        const as_atom *a = &m->atoms[i];
+        uint64_t hi = 0;
+        hi |= (uint64_t)(a->degree & 0xff) << 56;
+        hi |= (uint64_t)(a->elem & 0xff) << 48;
+        hi |= (uint64_t)((a->isotope + 1) & 0xffff) << 32;
+        hi |= (uint64_t)((a->charge + 64) & 0xff) << 24;
+        hi |= (uint64_t)(a->total_h & 0xff) << 16;
+        hi |= (uint64_t)(a->aromatic & 1) << 8;
+        hi |= (uint64_t)(a->ring_size & 0xff); /* smallest ring: a graph invariant */
+        inv[2 * i] = hi;
+        /* neighbour count per bond code, packed as refine() counts them: with it in the
+         * invariant, refine() may leave the largest initial cell out of its queue */
+        uint64_t wdeg = 0;
+        for (int k = 0; k < a->degree; k++)
+            wdeg += (uint64_t)1 << (4 * (bond_code(&m->bonds[a->nbond[k]]) - 1));
+        inv[2 * i + 1] = (wdeg << 32) | (c->o->atom_maps ? (uint64_t)(unsigned)a->mapnum : 0);
     }
     rank_by_keys(c, inv, rank);
     return 0;
