@@ -78,7 +78,9 @@ typedef struct canon_ctx {
     const as_mol *m;
     const as_canon_opts *o;
     int n;
-    void *block;       /* the one allocation holding every array below */
+    void *block;       /* the one allocation holding every array below (NULL when the
+                          caller's buffer held them) */
+    int *rank;         /* the ranking being tie-broken (canon_connected) */
     int *cls;          /* constitutional classes (refined, no tie breaking) */
     char *real_tetra;  /* per tetra record */
     char *real_db;     /* per dbs record */
@@ -713,6 +715,7 @@ typedef struct writer {
     int *child_start, *children; /* tree children per atom, in visit order */
     signed char *dir; /* per bond: 0 none, +1 '/', -1 '\\' in written direction */
     int *written_first; /* per bond: the atom written first */
+    int *ord;           /* per stereo double bond: assign_dirs() order */
     int *stack, *it, *nbuf, *nchild, *byrank, *ci; /* traversal scratch */
     int *pbond;      /* per atom: the bond to its parent, -1 for a root */
     int *nrb_at;     /* per atom: ring bonds opened or closed there */
@@ -938,17 +941,17 @@ static void assign_dirs(writer *w)
 {
     const canon_ctx *c = w->c;
     const as_mol *m = c->m;
-    if (!c->o->stereo)
+    int nd = m->ndbs, any = 0;
+    for (int i = 0; i < nd && !any; i++)
+        any = c->real_db[i];
+    if (!c->o->stereo || !any)
         return;
     for (int b = 0; b < m->nbonds; b++) {
         const as_bond *bd = &m->bonds[b];
         w->written_first[b] = w->visited[bd->a] < w->visited[bd->b] ? bd->a : bd->b;
     }
     /* process stereo double bonds in order of their first atom's visit index */
-    int nd = m->ndbs;
-    int *ord = malloc((size_t)(nd ? nd : 1) * sizeof(int));
-    if (!ord)
-        return;
+    int *ord = w->ord;
     int no = 0;
     for (int i = 0; i < nd; i++)
         if (c->real_db[i])
@@ -1038,7 +1041,6 @@ static void assign_dirs(writer *w)
             }
         }
     }
-    free(ord);
 }
 
 /* ---------------------------------------------------------------- atom text */
@@ -1234,7 +1236,7 @@ static char *write_smiles(canon_ctx *c, const int *rank, as_status *st)
     memset(&w, 0, sizeof w);
     w.c = c;
     w.rank = rank;
-    size_t na = (size_t)(n ? n : 1);
+    size_t na = (size_t)(n ? n : 1), nbd = (size_t)(m->nbonds ? m->nbonds : 1);
     int *p = c->wblock;
     w.visited = p, p += na;
     w.parent = p, p += na;
@@ -1249,7 +1251,8 @@ static char *write_smiles(canon_ctx *c, const int *rank, as_status *st)
     w.nbuf = p, p += na * AS_MAX_DEGREE;
     w.pbond = p, p += na;
     w.nrb_at = p, p += na;
-    w.written_first = p;
+    w.written_first = p, p += nbd;
+    w.ord = p;
     w.rb = c->wrb;
     w.dir = c->wdir;
     memset(w.dir, 0, (size_t)(m->nbonds ? m->nbonds : 1));
@@ -1438,7 +1441,13 @@ static size_t part(size_t n, size_t sz)
     return (n * sz + 15) & ~(size_t)15;
 }
 
-static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
+/* Bytes of stack a caller offers ctx_init: the arrays of a molecule of up to about 64 atoms
+ * (25 + AS_MAX_DEGREE ints per atom and a few per bond), so the common case costs no
+ * allocation at all. */
+#define CTX_STACK 16384
+
+static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o, void *buf,
+                          size_t cap)
 {
     memset(c, 0, sizeof *c);
     c->m = m;
@@ -1451,13 +1460,18 @@ static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o)
     size_t sz_cls = part(na, sizeof(int)), sz_tetra = part(nt, 1), sz_db = part(nd, 1);
     size_t sz_near = part(na, 1), sz_order = part(na, sizeof(int)), sz_tmp = part(na, sizeof(int));
     size_t sz_scratch = part(na * 11, sizeof(int));
-    size_t sz_wblock = part(na * (13 + AS_MAX_DEGREE) + 1 + nbd, sizeof(int));
+    size_t sz_wblock = part(na * (13 + AS_MAX_DEGREE) + 1 + nbd + nd, sizeof(int));
     size_t sz_wrb = part(nbd, sizeof(ringbond)), sz_wdir = part(nbd, 1);
-    char *b = malloc(sz_cls + sz_tetra + sz_db + sz_near + sz_order + sz_tmp + sz_scratch +
-                     sz_wblock + sz_wrb + sz_wdir);
-    if (!b)
-        return AS_ERR_NOMEM;
-    c->block = b;
+    size_t total = 2 * sz_cls + sz_tetra + sz_db + sz_near + sz_order + sz_tmp + sz_scratch +
+                   sz_wblock + sz_wrb + sz_wdir;
+    char *b = buf;
+    if (total > cap) {
+        b = malloc(total);
+        if (!b)
+            return AS_ERR_NOMEM;
+        c->block = b;
+    }
+    c->rank = (int *)(void *)b, b += sz_cls;
     c->cls = (int *)(void *)b, b += sz_cls;
     c->real_tetra = b, b += sz_tetra;
     c->real_db = b, b += sz_db;
@@ -1481,25 +1495,21 @@ as_status as_canon_classes(const as_mol *m, int *cls, as_error *err)
     as_canon_opts o;
     as_canon_opts_init(&o);
     canon_ctx c;
-    as_status st = ctx_init(&c, m, &o);
+    _Alignas(16) char buf[CTX_STACK];
+    as_status st = ctx_init(&c, m, &o, buf, sizeof buf);
     if (st == AS_OK) {
-        /* dense 0-based class numbers in rank order */
-        int *map = malloc((size_t)(m->natoms ? m->natoms : 1) * sizeof(int));
-        if (!map) {
-            st = AS_ERR_NOMEM;
-        } else {
-            for (int i = 0; i < m->natoms; i++)
-                map[i] = -1;
-            for (int i = 0; i < m->natoms; i++)
-                map[c.cls[i]] = 0;
-            int k = 0;
-            for (int i = 0; i < m->natoms; i++)
-                if (map[i] == 0)
-                    map[i] = k++;
-            for (int i = 0; i < m->natoms; i++)
-                cls[i] = map[c.cls[i]];
-            free(map);
-        }
+        /* dense 0-based class numbers in rank order (c.order is free scratch by now) */
+        int *map = c.order;
+        for (int i = 0; i < m->natoms; i++)
+            map[i] = -1;
+        for (int i = 0; i < m->natoms; i++)
+            map[c.cls[i]] = 0;
+        int k = 0;
+        for (int i = 0; i < m->natoms; i++)
+            if (map[i] == 0)
+                map[i] = k++;
+        for (int i = 0; i < m->natoms; i++)
+            cls[i] = map[c.cls[i]];
     }
     ctx_free(&c);
     if (st != AS_OK)
@@ -1572,7 +1582,8 @@ static as_status canon_connected(const as_mol *m, const as_canon_opts *opts, cha
     if (folded)
         m = folded;
     canon_ctx c;
-    as_status st = ctx_init(&c, m, opts);
+    _Alignas(16) char buf[CTX_STACK];
+    as_status st = ctx_init(&c, m, opts, buf, sizeof buf);
     if (st == AS_OK) {
         find_real_stereo(&c);
         st = c.st;
@@ -1581,23 +1592,16 @@ static as_status canon_connected(const as_mol *m, const as_canon_opts *opts, cha
         stereo_refine(&c);
         st = c.st;
     }
-    int *rank = NULL;
-    if (st == AS_OK) {
-        rank = malloc((size_t)m->natoms * sizeof(int));
-        if (!rank)
-            st = AS_ERR_NOMEM;
-    }
     if (st == AS_OK) {
         /* c.cls is equitable: it comes from refine() in ctx_init or in stereo_refine */
-        memcpy(rank, c.cls, (size_t)m->natoms * sizeof(int));
-        explore(&c, rank, -2);
+        memcpy(c.rank, c.cls, (size_t)m->natoms * sizeof(int));
+        explore(&c, c.rank, -2);
         st = c.st;
     }
     if (st == AS_OK && c.best) {
         *out = c.best;
         c.best = NULL;
     }
-    free(rank);
     ctx_free(&c);
     as_mol_free(folded);
     if (st == AS_ERR_LIMIT)
@@ -1618,6 +1622,29 @@ static int component_cmp(const void *x, const void *y)
     return strcmp(a, b);
 }
 
+/* 1 when m (1 to 256 atoms) is one connected piece: the common case, checked without an
+ * allocation. */
+static int connected_small(const as_mol *m)
+{
+    unsigned char seen[256] = {0};
+    unsigned char stack[256];
+    int top = 0, nseen = 1;
+    stack[top++] = 0;
+    seen[0] = 1;
+    while (top) {
+        const as_atom *a = &m->atoms[stack[--top]];
+        for (int j = 0; j < a->degree; j++) {
+            int u = a->nbr[j];
+            if (!seen[u]) {
+                seen[u] = 1;
+                nseen++;
+                stack[top++] = (unsigned char)u;
+            }
+        }
+    }
+    return nseen == m->natoms;
+}
+
 as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out,
                           as_error *err)
 {
@@ -1631,6 +1658,8 @@ as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out
         *out = calloc(1, 1);
         return *out ? AS_OK : as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
     }
+    if (m->natoms <= 256 && connected_small(m))
+        return canon_connected(m, opts, out, err);
     /* Components are written one by one and sorted: the same string whatever order they
      * came in, and a salt of 20,000 ions costs 20,000 small canonicalisations. */
     int *comp = malloc((size_t)m->natoms * sizeof(int));
