@@ -45,14 +45,23 @@ static void sb_putn(sbuf *b, const char *t, size_t n)
         b->s = p;
         b->cap = c;
     }
-    memcpy(b->s + b->n, t, n);
+    if (n <= 4) {
+        /* atom symbols and bond characters: a call to memcpy costs more than the copy */
+        for (size_t i = 0; i < n; i++)
+            b->s[b->n + i] = t[i];
+    } else {
+        memcpy(b->s + b->n, t, n);
+    }
     b->n += n;
     b->s[b->n] = '\0';
 }
 
 static void sb_puts(sbuf *b, const char *t)
 {
-    sb_putn(b, t, strlen(t));
+    size_t n = 0;
+    while (t[n])
+        n++;
+    sb_putn(b, t, n);
 }
 
 static void sb_putc(sbuf *b, char c)
@@ -439,6 +448,17 @@ static int initial_ranks(canon_ctx *c, int *rank)
             k[i] = (w << 6) | (uint64_t)i;
         }
         if (plain) {
+            /* counting sort by degree (the top field) first, so the insertion sort below
+             * only meets the few inversions inside one degree */
+            uint64_t *sorted = k + n;
+            int start[17] = {0};
+            for (int i = 0; i < n; i++)
+                start[(k[i] >> 55) + 1]++;
+            for (int d = 1; d < 17; d++)
+                start[d] += start[d - 1];
+            for (int i = 0; i < n; i++)
+                sorted[start[k[i] >> 55]++] = k[i];
+            k = sorted;
             for (int i = 1; i < n; i++) {
                 uint64_t x = k[i];
                 int j = i - 1;
@@ -728,6 +748,14 @@ static void sorted_nbrs(const writer *w, int a, int *out)
     int n = at->degree;
     for (int i = 0; i < n; i++)
         out[i] = at->nbr[i];
+    if (n == 2) {
+        /* most atoms of a chain or ring */
+        if (w->rank[out[0]] > w->rank[out[1]]) {
+            out[0] = at->nbr[1];
+            out[1] = at->nbr[0];
+        }
+        return;
+    }
     for (int i = 1; i < n; i++) {
         int x = out[i], j = i - 1;
         while (j >= 0 && w->rank[out[j]] > w->rank[x]) {
