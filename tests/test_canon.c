@@ -101,6 +101,40 @@ static void canon_should_drop_maps_on_request(void **state)
     free(out);
 }
 
+/* "head" + n × "C" + "tail" in a new string. */
+static char *chain(const char *head, int n, const char *tail)
+{
+    size_t lh = strlen(head), lt = strlen(tail);
+    char *s = malloc(lh + (size_t)n + lt + 1);
+    assert_non_null(s);
+    memcpy(s, head, lh);
+    memset(s + lh, 'C', (size_t)n);
+    memcpy(s + lh + (size_t)n, tail, lt + 1);
+    return s;
+}
+
+/* The ranking has a one-word key path for molecules of up to 64 atoms without differing
+ * isotopes or map numbers, a stack buffer for small molecules and a shortcut for one-piece
+ * molecules of up to 256 atoms; the other paths must give one string per molecule too. */
+static void canon_should_not_depend_on_atom_order_on_every_path(void **state)
+{
+    (void)state;
+    expect_same("OC[13CH2]C", "C[13CH2]CO");
+    expect_same("[CH3:2]C[OH:1]", "[OH:1]C[CH3:2]");
+    expect_differ("[13CH3]CCO", "C[13CH2]CO");
+    const int len[] = {58, 60, 61, 66, 150, 300}; /* 62 to 304 atoms */
+    for (size_t i = 0; i < sizeof len / sizeof len[0]; i++) {
+        char *a = chain("OC(C)", len[i], "N"), *b = chain("N", len[i], "C(C)O");
+        char *c = chain("[Na+].[O-]C(C)", len[i], "N"), *d = chain("N", len[i], "C(C)[O-].[Na+]");
+        expect_same(a, b);
+        expect_same(c, d);
+        free(a);
+        free(b);
+        free(c);
+        free(d);
+    }
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -109,6 +143,7 @@ int main(void)
         cmocka_unit_test(canon_should_drop_marks_that_are_not_stereo),
         cmocka_unit_test(canon_should_be_idempotent),
         cmocka_unit_test(canon_should_drop_maps_on_request),
+        cmocka_unit_test(canon_should_not_depend_on_atom_order_on_every_path),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
