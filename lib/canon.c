@@ -920,7 +920,7 @@ static int written_chirality(const writer *w, int a)
 {
     const canon_ctx *c = w->c;
     const as_mol *m = c->m;
-    if (!c->o->stereo)
+    if (!c->o->stereo || m->ntetra == 0)
         return 0;
     int ti = as_mol_find_tetra(m, a);
     if (ti < 0 || !c->real_tetra[ti])
@@ -1103,6 +1103,14 @@ static void write_atom(writer *w, sbuf *sb, int a)
     int chir = written_chirality(w, a);
     int iso = c->o->isotopes ? at->isotope : -1;
     int map = c->o->atom_maps ? at->mapnum : 0;
+    int bare = organic_subset(at->elem) && at->charge == 0 && iso < 0 && map == 0 && !chir &&
+               implied_h(m, a, 1) == at->total_h &&
+               (!at->aromatic || at->elem == 5 || at->elem == 6 || at->elem == 7 ||
+                at->elem == 8 || at->elem == 15 || at->elem == 16);
+    if (bare && at->elem == 6) {
+        sb_putc(sb, at->aromatic ? 'c' : 'C'); /* most atoms */
+        return;
+    }
     const char *sym = as_element_symbol(at->elem);
     if (!sym)
         sym = "*";
@@ -1113,10 +1121,6 @@ static void write_atom(writer *w, sbuf *sb, int a)
             low[i] = (char)(i == 0 ? sym[0] - 'A' + 'a' : sym[i]);
         sym = low;
     }
-    int bare = organic_subset(at->elem) && at->charge == 0 && iso < 0 && map == 0 && !chir &&
-               implied_h(m, a, 1) == at->total_h &&
-               (!at->aromatic || at->elem == 5 || at->elem == 6 || at->elem == 7 ||
-                at->elem == 8 || at->elem == 15 || at->elem == 16);
     if (at->elem == 0 && at->charge == 0 && iso < 0 && map == 0 && at->total_h == 0) {
         sb_putc(sb, '*');
         return;
