@@ -1398,10 +1398,23 @@ static void explore(canon_ctx *c, int *rank, int seed)
          * where rings fuse or bridge (three or more ring bonds on the atom) a class can hold
          * atoms that no symmetry exchanges (cages), so those ties are explored too. */
         int branch = r_near >= 0;
-        for (int i = 0; i < n && !branch; i++)
-            branch = rank[i] == r && ring_bond_count(c->m, i) >= 3;
         int first = -1;
-        for (int i = 0; i < n; i++)
+        if (valid && !branch) {
+            /* the members are elems[r .. r + len): no scan of every atom */
+            cells cs = cells_of(c);
+            for (int k = r; k < r + cs.cell_len[r] && !branch; k++) {
+                int i = cs.elems[k];
+                branch = ring_bond_count(c->m, i) >= 3;
+                if (first < 0 || i < first)
+                    first = i;
+            }
+            if (branch)
+                first = -1;
+        } else {
+            for (int i = 0; i < n && !branch; i++)
+                branch = rank[i] == r && ring_bond_count(c->m, i) >= 3;
+        }
+        for (int i = 0; i < n && (first < 0 || branch); i++)
             if (rank[i] == r) {
                 if (first < 0) {
                     first = i;
