@@ -333,7 +333,10 @@ static void refine(canon_ctx *c, int *rank, int seed, int prepared)
                         e++;
                 }
                 cell_len[fs] = e - fs;
-                for (int q = fs; q < e; q++)
+                /* the first fragment keeps the cell's start: its atoms' cell_of stays (with a
+                 * large untouched rest, e.g. a symmetric ring, rewriting it made every split
+                 * cost the whole cell) */
+                for (int q = fs == x ? e : fs; q < e; q++)
                     cell_of[elems[q]] = fs;
                 if (e - fs > largest_len) {
                     largest_len = e - fs;
