@@ -6,7 +6,9 @@ never crash (a signal or a sanitizer report), hang (every case runs under a time
 time is checked against a budget), or leave a partial output looking complete.
 
 Limits checked are the ones README.md "Limits and hardening" documents. Budgets are for the
-plain build; a sanitizer build (AS_SANITIZE=ON in its CMakeCache.txt) gets 10 times more.
+plain build on an idle machine, times 3 (CI hosts are shared); a sanitizer build
+(AS_SANITIZE=ON in its CMakeCache.txt) gets 30 times. They are there to catch a quadratic path
+(which takes minutes on these sizes), not to time the code: speed is the benchmark's job.
 Environment: ADDSITE (binary), AS_SOURCE_DIR, AS_BINARY_DIR. Last line: "N passed, M failed".
 """
 import gzip
@@ -32,7 +34,7 @@ def sanitized_build():
         return False
 
 
-SLACK = 10.0 if sanitized_build() else 1.0
+SLACK = 30.0 if sanitized_build() else 3.0
 passed = failed = 0
 
 
