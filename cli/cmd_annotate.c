@@ -16,6 +16,8 @@
 
 #include <cjson/cJSON.h>
 #include <errno.h>
+#include <float.h>
+#include <limits.h>
 #include <math.h>
 #include <pthread.h>
 #include <stdint.h>
@@ -224,29 +226,171 @@ typedef struct config {
     int keep_raw;           /* 1: records keep their input bytes (for --rejects) */
 } config;
 
+/* ---------------------------------------------------------------- JSON text
+ *
+ * The products and notes arrays are written straight into a buffer, byte for byte as
+ * cJSON_PrintUnformatted writes the same tree (the output predates this code and must not
+ * change); building the tree and printing it cost more than the rest of the command. */
+
+typedef struct jbuf {
+    char *p;
+    size_t len, cap;
+    int bad;                /* out of memory: p is freed and the text is lost */
+} jbuf;
+
+static void jb_put(jbuf *b, const char *s, size_t n)
+{
+    if (b->bad)
+        return;
+    if (b->len + n + 1 > b->cap) {
+        size_t cap = b->cap ? b->cap : 256;
+        while (cap < b->len + n + 1)
+            cap *= 2;
+        char *q = realloc(b->p, cap);
+        if (!q) {
+            free(b->p);
+            memset(b, 0, sizeof *b);
+            b->bad = 1;
+            return;
+        }
+        b->p = q;
+        b->cap = cap;
+    }
+    memcpy(b->p + b->len, s, n);
+    b->len += n;
+    b->p[b->len] = '\0';
+}
+
+static void jb_lit(jbuf *b, const char *s)
+{
+    jb_put(b, s, strlen(s));
+}
+
+/* s as a JSON string: '"' '\\' and the controls \b \f \n \r \t get their short escapes, other
+ * bytes below 0x20 \u00xx, everything else as it is (cJSON's escaping). */
+static void jb_str(jbuf *b, const char *s)
+{
+    static const char hex[] = "0123456789abcdef";
+    jb_put(b, "\"", 1);
+    const char *run = s;
+    for (const unsigned char *u = (const unsigned char *)s;; u++) {
+        unsigned c = *u;
+        if (c >= 0x20 && c != '"' && c != '\\')
+            continue;
+        jb_put(b, run, (size_t)((const char *)u - run));
+        if (c == 0)
+            break;
+        char e[6] = {'\\', 0, '0', '0', 0, 0};
+        size_t k = 2;
+        switch (c) {
+        case '"': e[1] = '"'; break;
+        case '\\': e[1] = '\\'; break;
+        case '\b': e[1] = 'b'; break;
+        case '\f': e[1] = 'f'; break;
+        case '\n': e[1] = 'n'; break;
+        case '\r': e[1] = 'r'; break;
+        case '\t': e[1] = 't'; break;
+        default:
+            e[1] = 'u';
+            e[4] = hex[c >> 4];
+            e[5] = hex[c & 15];
+            k = 6;
+        }
+        jb_put(b, e, k);
+        run = (const char *)u + 1;
+    }
+    jb_put(b, "\"", 1);
+}
+
+/* Writes the decimal digits of u before e; returns where they start. */
+static char *digits(char *e, unsigned long long u)
+{
+    do
+        *--e = (char)('0' + u % 10);
+    while (u /= 10);
+    return e;
+}
+
+/* d as cJSON writes a number: null when not finite, else %1.15g when that reads back as d
+ * (within DBL_EPSILON relative), else %1.17g. Shares are mostly whole or have one or two
+ * decimals: when d is the double nearest to such a short decimal below 1e9, %1.15g writes
+ * exactly that decimal, and it is written here without printf. */
+static void jb_num(jbuf *b, double d)
+{
+    char t[40];
+    if (!isfinite(d)) {
+        jb_put(b, "null", 4);
+        return;
+    }
+    double a = fabs(d);
+    if (a < 1e9 && !(d == 0 && signbit(d))) {
+        static const double scale[3] = {1, 10, 100};
+        for (int k = 0; k < 3; k++) {
+            double v = floor(a * scale[k] + 0.5);
+            if (v / scale[k] != a) /* both exact, so the quotient is correctly rounded */
+                continue;
+            unsigned long long u = (unsigned long long)v, p = k == 2 ? 100 : (unsigned long long)k * 10;
+            char *e = t + sizeof t, *q = e;
+            if (k) {
+                unsigned long long f = u % p;
+                u /= p;
+                if (k == 2 && f % 10 == 0) { /* %g drops the trailing zero */
+                    f /= 10;
+                    p = 10;
+                }
+                char *fe = e;
+                e = digits(fe, f);
+                if (p == 100 && f < 10)
+                    *--e = '0';
+                *--e = '.';
+                q = e;
+            }
+            q = digits(q, u);
+            if (d < 0)
+                *--q = '-';
+            jb_put(b, q, (size_t)(t + sizeof t - q));
+            return;
+        }
+    }
+    snprintf(t, sizeof t, "%1.15g", d);
+    double back = strtod(t, NULL);
+    double big = fabs(back) > fabs(d) ? fabs(back) : fabs(d);
+    if (!(fabs(back - d) <= big * DBL_EPSILON))
+        snprintf(t, sizeof t, "%1.17g", d);
+    jb_lit(b, t);
+}
+
+/* The products array in JSON; NULL when out of memory or a product lacks a text field
+ * (the field is then written as null, as before). */
 static char *products_json(const as_outcome *o)
 {
-    cJSON *a = cJSON_CreateArray();
-    if (!a)
-        return NULL;
-    int ok = 1;
-    for (int i = 0; ok && o && i < o->nproducts; i++) {
+    jbuf b = {0};
+    jb_put(&b, "[", 1);
+    for (int i = 0; o && i < o->nproducts; i++) {
         const as_product *p = &o->products[i];
-        cJSON *e = cJSON_CreateObject();
-        ok &= e != NULL && cJSON_AddItemToArray(a, e);
-        if (!ok)
-            break;
-        ok &= cJSON_AddStringToObject(e, "smiles", p->smiles) != NULL;
-        ok &= cJSON_AddStringToObject(e, "role", as_product_role_name(p->role)) != NULL;
-        ok &= cJSON_AddNumberToObject(e, "share", p->share) != NULL;
-        ok &= cJSON_AddBoolToObject(e, "share_published", p->share_published) != NULL;
-        ok &= cJSON_AddStringToObject(e, "stereo", as_stereo_name(p->stereo)) != NULL;
-        ok &= cJSON_AddStringToObject(e, "regio", p->regio) != NULL;
-        ok &= cJSON_AddBoolToObject(e, "rearranged", p->rearranged) != NULL;
+        const char *role = as_product_role_name(p->role), *stereo = as_stereo_name(p->stereo);
+        if (!p->smiles || !role || !stereo || !p->regio) {
+            free(b.p);
+            return NULL;
+        }
+        /* the keys need no escaping */
+        jb_lit(&b, i ? ",{\"smiles\":" : "{\"smiles\":");
+        jb_str(&b, p->smiles);
+        jb_lit(&b, ",\"role\":");
+        jb_str(&b, role);
+        jb_lit(&b, ",\"share\":");
+        jb_num(&b, p->share);
+        jb_lit(&b, p->share_published ? ",\"share_published\":true"
+                                      : ",\"share_published\":false");
+        jb_lit(&b, ",\"stereo\":");
+        jb_str(&b, stereo);
+        jb_lit(&b, ",\"regio\":");
+        jb_str(&b, p->regio);
+        jb_lit(&b, p->rearranged ? ",\"rearranged\":true" : ",\"rearranged\":false");
+        jb_put(&b, "}", 1);
     }
-    char *s = ok ? cJSON_PrintUnformatted(a) : NULL;
-    cJSON_Delete(a);
-    return s;
+    jb_put(&b, "]", 1);
+    return b.p;
 }
 
 /* "SMILES major 94%; SMILES minor 6%" for TSV/CSV. */
@@ -271,27 +415,39 @@ static char *products_text(const as_outcome *o)
     return s;
 }
 
-static int notes_out(slot *s, const char *const *notes, int n)
+/* The notes as the output format wants them: a JSON array for JSON Lines, " | "-joined text
+ * for TSV and CSV (only that one is made). */
+static int notes_out(const config *cfg, slot *s, const char *const *notes, int n)
 {
-    cJSON *a = cJSON_CreateArray();
-    if (!a)
-        return -1;
+    if (cfg->out_format == AS_FMT_JSONL) {
+        jbuf b = {0};
+        jb_put(&b, "[", 1);
+        for (int i = 0; i < n; i++) {
+            if (i)
+                jb_put(&b, ",", 1);
+            jb_str(&b, notes[i]);
+        }
+        jb_put(&b, "]", 1);
+        s->notes_json = b.p;
+        return b.bad ? -1 : 0;
+    }
     size_t cap = 1;
-    for (int i = 0; i < n; i++) {
-        cJSON_AddItemToArray(a, cJSON_CreateString(notes[i]));
+    for (int i = 0; i < n; i++)
         cap += strlen(notes[i]) + 3;
-    }
-    s->notes_json = cJSON_PrintUnformatted(a);
-    cJSON_Delete(a);
     s->notes_text = malloc(cap);
-    if (!s->notes_json || !s->notes_text)
+    if (!s->notes_text)
         return -1;
-    s->notes_text[0] = '\0';
+    size_t used = 0;
     for (int i = 0; i < n; i++) {
-        if (i)
-            strcat(s->notes_text, " | ");
-        strcat(s->notes_text, notes[i]);
+        size_t k = strlen(notes[i]);
+        if (i) {
+            memcpy(s->notes_text + used, " | ", 3);
+            used += 3;
+        }
+        memcpy(s->notes_text + used, notes[i], k);
+        used += k;
     }
+    s->notes_text[used] = '\0';
     return 0;
 }
 
@@ -320,14 +476,14 @@ static void annotate(const config *cfg, as_check_cache *cache, slot *s)
         s->err = s->rec_err;
         s->err.line = s->rec_err.line ? s->rec_err.line : s->line;
         s->err_column = s->rec_err.column;
-        notes_out(s, notes1, nn);
+        notes_out(cfg, s, notes1, nn);
         return;
     }
     if (s->skipped) {
         s->status = ST_SKIPPED;
         if (s->skip_reason)
             notes1[nn++] = s->skip_reason;
-        notes_out(s, notes1, nn);
+        notes_out(cfg, s, notes1, nn);
         return;
     }
     as_check_input in;
@@ -347,7 +503,7 @@ static void annotate(const config *cfg, as_check_cache *cache, slot *s)
     if (st == AS_ERR_EMPTY) {
         s->status = ST_SKIPPED;
         notes1[nn++] = err.msg;
-        notes_out(s, notes1, nn);
+        notes_out(cfg, s, notes1, nn);
         return;
     }
     if (st != AS_OK) {
@@ -366,7 +522,7 @@ static void annotate(const config *cfg, as_check_cache *cache, slot *s)
             base = s->col_reagents;
         /* the field's first column when the message points at no byte in it */
         s->err.column = base > 0 ? base + (err.offset >= 0 ? err.offset : 0) : 0;
-        notes_out(s, notes1, nn);
+        notes_out(cfg, s, notes1, nn);
         return;
     }
     s->status = ST_ANNOTATED;
@@ -376,8 +532,10 @@ static void annotate(const config *cfg, as_check_cache *cache, slot *s)
     s->source = dup_or_null(as_reagent_source_name(c->reagent_source));
     if (c->outcome && c->outcome->nproducts)
         s->major = dup_or_null(c->outcome->products[0].smiles);
-    s->products_json = products_json(c->outcome);
-    s->products_text = products_text(c->outcome);
+    if (cfg->out_format == AS_FMT_JSONL)
+        s->products_json = products_json(c->outcome);
+    else
+        s->products_text = products_text(c->outcome);
     if (c->has_product) {
         s->has_verdict = 1;
         s->verdict = c->verdict;
@@ -391,7 +549,7 @@ static void annotate(const config *cfg, as_check_cache *cache, slot *s)
             notes[k++] = notes1[i];
         for (int i = 0; i < c->nnotes; i++)
             notes[k++] = c->notes[i];
-        notes_out(s, notes, k);
+        notes_out(cfg, s, notes, k);
         free(notes);
     }
     if (c->no_site) {
