@@ -3,11 +3,11 @@
  * (a bounded ring of in-flight records), progress and summary lines, exit status.
  * Must not: hold chemistry (as_check_record resolves, predicts and judges every record).
  *
- * Threads. With -j 1 one thread reads, annotates and writes. With -j N a reader thread fills
- * a ring of 16N slots, N workers annotate any filled slot, and the main thread writes slots in
- * input order as they complete; the reader waits when the ring is full, so memory stays flat
- * however long the input. Annotating a record depends on nothing but the record, the options
- * and the read-only rule table, so the output is the same byte for byte for every N. */
+ * Threads. With -j 1 one thread reads, annotates and writes, a record at a time. With -j N,
+ * N threads each read a batch of consecutive records, annotate it and write whatever is next
+ * in input order (see "the pipeline"); a bounded ring of batches keeps memory flat however
+ * long the input. Annotating a record depends on nothing but the record, the options and the
+ * read-only rule table, so the output is the same byte for byte for every N. */
 #include "addsite/io.h"
 #include "addsite/outcome.h"
 #include "addsite/rules.h"
@@ -57,7 +57,9 @@ static void help(FILE *f)
           "  -o FILE           write to FILE (a temporary name, renamed when complete)\n"
           "  --rejects FILE    also write the input text of every record that failed, one\n"
           "                    per line (after the header for CSV/TSV input), to fix and rerun\n"
-          "  -j N              N worker threads (default 1); output order is input order\n"
+          "  -j N              N threads (default 1); output order is input order. Threads\n"
+          "                    take records in batches of 64 (one at a time when the input\n"
+          "                    is typed at a terminal)\n"
           "  --on-error P      report (default): annotate everything, exit 3 when any record\n"
           "                    failed; ignore: the same, exit 0; stop: end after the first\n"
           "                    failed record (it is written), exit 1, -o FILE not kept\n"
@@ -87,7 +89,6 @@ static int usage_error(const char *msg, const char *arg)
 /* ---------------------------------------------------------------- one slot */
 
 typedef struct slot {
-    int state;              /* 0 free, 1 read, 2 being annotated, 3 done */
     /* input, copied from the reader's record */
     long line;
     int skipped;
@@ -210,7 +211,6 @@ static int slot_fill(slot *s, const as_record *r, int keep_columns, int keep_raw
         }
     }
 #undef DUP
-    s->state = 1;
     return bad ? -1 : 0;
 }
 
@@ -856,106 +856,6 @@ static void progress_line(progress *p, long records, int final)
     fflush(stderr);
 }
 
-/* ---------------------------------------------------------------- the pipeline */
-
-typedef struct pipeline {
-    const config *cfg;
-    as_reader *reader;
-    slot *ring;
-    long cap;
-    long head, work, tail;   /* next to read, next to annotate, next to write */
-    int eof, stop, fatal;
-    as_error read_err;
-    pthread_mutex_t mu;
-    pthread_cond_t space;    /* a slot was freed (reader waits) */
-    pthread_cond_t filled;   /* a slot was filled or input ended (workers wait) */
-    pthread_cond_t done;     /* a slot was annotated or input ended (writer waits) */
-    int idle_workers;        /* workers waiting on `filled` */
-    int reader_waiting;      /* the reader waits on `space` */
-    int writer_waiting;      /* the writer waits on `done` for the slot at `tail` */
-} pipeline;
-
-static void *reader_main(void *arg)
-{
-    pipeline *p = arg;
-    for (;;) {
-        as_record rec;
-        as_error err;
-        as_error_clear(&err);
-        as_status st = as_reader_next(p->reader, &rec, &err);
-        pthread_mutex_lock(&p->mu);
-        if (!p->stop && p->head - p->tail >= p->cap) {
-            /* full: sleep until half the ring is free, so wake-ups come in batches */
-            p->reader_waiting = 1;
-            while (!p->stop && p->head - p->tail > p->cap / 2)
-                pthread_cond_wait(&p->space, &p->mu);
-            p->reader_waiting = 0;
-        }
-        if (p->stop || st != AS_OK || rec.at_end) {
-            if (st != AS_OK) {
-                p->fatal = 1;
-                p->read_err = err;
-            }
-            p->eof = 1;
-            pthread_cond_broadcast(&p->filled);
-            pthread_cond_broadcast(&p->done);
-            pthread_mutex_unlock(&p->mu);
-            return NULL;
-        }
-        slot *s = &p->ring[p->head % p->cap];
-        pthread_mutex_unlock(&p->mu);
-        /* the slot is free and only this thread fills it */
-        int bad = slot_fill(s, &rec, p->cfg->keep_columns, p->cfg->keep_raw);
-        pthread_mutex_lock(&p->mu);
-        if (bad) {
-            p->fatal = 1;
-            p->read_err.code = AS_ERR_NOMEM;
-            snprintf(p->read_err.msg, sizeof p->read_err.msg, "out of memory");
-            p->eof = 1;
-            slot_clear(s);
-            pthread_cond_broadcast(&p->filled);
-            pthread_cond_broadcast(&p->done);
-            pthread_mutex_unlock(&p->mu);
-            return NULL;
-        }
-        p->head++;
-        if (p->idle_workers)
-            pthread_cond_signal(&p->filled);
-        pthread_mutex_unlock(&p->mu);
-    }
-}
-
-static void *worker_main(void *arg)
-{
-    pipeline *p = arg;
-    as_check_cache *cache = as_check_cache_new(); /* NULL: no memo, same results */
-    memo *m = p->cfg->memo ? memo_new() : NULL;
-    pthread_mutex_lock(&p->mu);
-    for (;;) {
-        while (!p->stop && p->work == p->head && !p->eof) {
-            p->idle_workers++;
-            pthread_cond_wait(&p->filled, &p->mu);
-            p->idle_workers--;
-        }
-        if (p->stop || p->work == p->head) {
-            pthread_mutex_unlock(&p->mu);
-            as_check_cache_free(cache);
-            memo_free(m);
-            return NULL;
-        }
-        slot *s = &p->ring[p->work % p->cap];
-        p->work++;
-        s->state = 2;
-        pthread_mutex_unlock(&p->mu);
-        annotate_memo(p->cfg, cache, m, s);
-        pthread_mutex_lock(&p->mu);
-        s->state = 3;
-        /* the writer only ever waits for the slot at tail */
-        if (p->writer_waiting && s == &p->ring[p->tail % p->cap])
-            pthread_cond_signal(&p->done);
-    }
-}
-
 typedef struct run_state {
     const config *cfg;
     as_writer *w;
@@ -1065,82 +965,186 @@ static int run_serial(run_state *rs, as_reader *r, as_error *rerr)
     return rc;
 }
 
-static int run_threads(run_state *rs, as_reader *r, int nworkers, as_error *rerr)
+/* ---------------------------------------------------------------- the pipeline */
+
+/* With -j N the main thread and N-1 others run the same loop: take the next batch of up to
+ * BATCH_MAX consecutive records, read it (one thread reads at a time, in input order),
+ * annotate it with the thread's own memos, and hand it in. Whoever hands in the batch that is
+ * next in input order writes it, and every batch after it that is ready, so no thread only
+ * waits and a batch costs a few lock operations instead of a few per record. At most
+ * RING_PER_THREAD * N batches are read and not yet written: a thread that would read past
+ * that waits for the writer, so memory stays flat however long the input. A batch also ends
+ * after BATCH_BYTES of input, which bounds memory when records are long. */
+#define BATCH_MAX 64
+#define BATCH_BYTES (256L * 1024)
+#define RING_PER_THREAD 4
+
+typedef struct batch {
+    slot s[BATCH_MAX];
+    int n;                   /* records read into s */
+    int done;                /* 1: annotated, not yet written */
+} batch;
+
+typedef struct pipeline {
+    const config *cfg;
+    run_state *rs;
+    as_reader *reader;
+    int batch_max;           /* BATCH_MAX, or 1 when a person types the input */
+    batch *ring;
+    long cap;                /* batches in the ring */
+    long nread, nwritten;    /* batches taken for reading; batches written */
+    int reading, writing;    /* a thread is reading / writing (only one at a time each) */
+    int eof, stop, fatal;
+    int waiting;             /* threads waiting on cv */
+    as_error read_err;
+    pthread_mutex_t mu;
+    pthread_cond_t cv;       /* the reader is free, a batch was written, or the run ended */
+} pipeline;
+
+/* Reads records into b until it is full; 0, or 1 at the end of input, or -1 when reading
+ * failed or memory ran out (err says which). The records read before stay in b. */
+static int read_batch(pipeline *p, batch *b, as_error *err)
+{
+    long bytes = 0;
+    while (b->n < p->batch_max && bytes < BATCH_BYTES) {
+        as_record rec;
+        if (as_reader_next(p->reader, &rec, err) != AS_OK)
+            return -1;
+        if (rec.at_end)
+            return 1;
+        slot *s = &b->s[b->n];
+        if (slot_fill(s, &rec, p->cfg->keep_columns, p->cfg->keep_raw)) {
+            slot_clear(s);
+            as_error_clear(err);
+            err->code = AS_ERR_NOMEM;
+            snprintf(err->msg, sizeof err->msg, "out of memory");
+            return -1;
+        }
+        b->n++;
+        bytes += (long)rec.raw_len + 1;
+    }
+    return 0;
+}
+
+/* Writes the batches that are next in input order and annotated; called with mu held by a
+ * thread that is not writing, returns with mu held. */
+static void write_ready(pipeline *p)
+{
+    p->writing = 1;
+    while (!p->stop && p->nwritten < p->nread) {
+        batch *b = &p->ring[p->nwritten % p->cap];
+        if (!b->done)
+            break;
+        pthread_mutex_unlock(&p->mu);
+        int stop = 0;
+        for (int i = 0; i < b->n; i++) {
+            if (!stop)
+                stop = emit(p->rs, &b->s[i]);
+            slot_clear(&b->s[i]);
+        }
+        pthread_mutex_lock(&p->mu);
+        b->n = 0;
+        b->done = 0;
+        p->nwritten++;
+        if (stop)
+            p->stop = 1;
+        if (p->waiting)
+            pthread_cond_broadcast(&p->cv);
+    }
+    p->writing = 0;
+}
+
+static void *worker_main(void *arg)
+{
+    pipeline *p = arg;
+    as_check_cache *cache = as_check_cache_new(); /* NULL: no memo, same results */
+    memo *m = p->cfg->memo ? memo_new() : NULL;
+    pthread_mutex_lock(&p->mu);
+    for (;;) {
+        while (!p->stop && !p->eof && (p->reading || p->nread - p->nwritten >= p->cap)) {
+            p->waiting++;
+            pthread_cond_wait(&p->cv, &p->mu);
+            p->waiting--;
+        }
+        if (p->stop || p->eof)
+            break;
+        p->reading = 1;
+        batch *b = &p->ring[p->nread++ % p->cap];
+        pthread_mutex_unlock(&p->mu);
+        as_error err;
+        as_error_clear(&err);
+        int end = read_batch(p, b, &err);
+        pthread_mutex_lock(&p->mu);
+        p->reading = 0;
+        if (end) {
+            p->eof = 1;
+            if (end < 0) {
+                p->fatal = 1;
+                p->read_err = err;
+            }
+        }
+        if (p->waiting)
+            pthread_cond_broadcast(&p->cv);
+        if (!b->n) { /* the end of input: nobody took a batch after this one */
+            p->nread--;
+            continue;
+        }
+        pthread_mutex_unlock(&p->mu);
+        for (int i = 0; i < b->n; i++)
+            annotate_memo(p->cfg, cache, m, &b->s[i]);
+        pthread_mutex_lock(&p->mu);
+        b->done = 1;
+        if (!p->writing)
+            write_ready(p);
+    }
+    pthread_mutex_unlock(&p->mu);
+    as_check_cache_free(cache);
+    memo_free(m);
+    return NULL;
+}
+
+static int run_threads(run_state *rs, as_reader *r, int nthreads, int batch_max,
+                       as_error *rerr)
 {
     pipeline p;
     memset(&p, 0, sizeof p);
     p.cfg = rs->cfg;
+    p.rs = rs;
     p.reader = r;
-    p.cap = 16L * nworkers;
+    p.batch_max = batch_max;
+    p.cap = (long)RING_PER_THREAD * nthreads;
     p.ring = calloc((size_t)p.cap, sizeof *p.ring);
-    if (!p.ring) {
+    pthread_t *t = calloc((size_t)nthreads, sizeof *t);
+    if (!p.ring || !t) {
+        free(p.ring);
+        free(t);
         rerr->code = AS_ERR_NOMEM;
         snprintf(rerr->msg, sizeof rerr->msg, "out of memory");
         return -1;
     }
     pthread_mutex_init(&p.mu, NULL);
-    pthread_cond_init(&p.space, NULL);
-    pthread_cond_init(&p.filled, NULL);
-    pthread_cond_init(&p.done, NULL);
-    pthread_t rt, *wt = calloc((size_t)nworkers, sizeof *wt);
-    int nstarted = 0, reader_started = 0;
-    if (wt && pthread_create(&rt, NULL, reader_main, &p) == 0)
-        reader_started = 1;
-    for (int i = 0; reader_started && i < nworkers; i++)
-        if (pthread_create(&wt[i], NULL, worker_main, &p) == 0)
+    pthread_cond_init(&p.cv, NULL);
+    /* the main thread is one of the N; when a thread cannot be started the others do its
+     * share, the output is the same */
+    int nstarted = 0;
+    for (int i = 1; i < nthreads; i++)
+        if (pthread_create(&t[nstarted], NULL, worker_main, &p) == 0)
             nstarted++;
+    worker_main(&p);
+    for (int i = 0; i < nstarted; i++)
+        pthread_join(t[i], NULL);
     int rc = 0;
-    if (!reader_started || !nstarted) {
-        pthread_mutex_lock(&p.mu);
-        p.stop = 1;
-        pthread_cond_broadcast(&p.space);
-        pthread_cond_broadcast(&p.filled);
-        pthread_mutex_unlock(&p.mu);
-        rerr->code = AS_ERR_NOMEM;
-        snprintf(rerr->msg, sizeof rerr->msg, "could not start threads");
-        rc = -1;
-    }
-    pthread_mutex_lock(&p.mu);
-    while (rc == 0) {
-        slot *s = &p.ring[p.tail % p.cap];
-        while (!(p.tail < p.head && s->state == 3) && !(p.eof && p.tail == p.head)) {
-            p.writer_waiting = 1;
-            pthread_cond_wait(&p.done, &p.mu);
-            p.writer_waiting = 0;
-        }
-        if (p.tail == p.head && p.eof)
-            break;
-        pthread_mutex_unlock(&p.mu);
-        int stop = emit(rs, s);
-        slot_clear(s);
-        pthread_mutex_lock(&p.mu);
-        p.tail++;
-        if (p.reader_waiting && p.head - p.tail <= p.cap / 2)
-            pthread_cond_signal(&p.space);
-        if (stop) {
-            p.stop = 1;
-            pthread_cond_broadcast(&p.space);
-            pthread_cond_broadcast(&p.filled);
-            break;
-        }
-    }
-    if (p.fatal && rc == 0) {
+    if (p.fatal) {
         *rerr = p.read_err;
         rc = -1;
     }
-    pthread_mutex_unlock(&p.mu);
-    if (reader_started)
-        pthread_join(rt, NULL);
-    for (int i = 0; i < nstarted; i++)
-        pthread_join(wt[i], NULL);
     for (long i = 0; i < p.cap; i++)
-        slot_clear(&p.ring[i]);
+        for (int k = 0; k < p.ring[i].n; k++)
+            slot_clear(&p.ring[i].s[k]);
     free(p.ring);
-    free(wt);
+    free(t);
     pthread_mutex_destroy(&p.mu);
-    pthread_cond_destroy(&p.space);
-    pthread_cond_destroy(&p.filled);
-    pthread_cond_destroy(&p.done);
+    pthread_cond_destroy(&p.cv);
     return rc;
 }
 
@@ -1340,8 +1344,10 @@ int as_cli_annotate(int argc, char **argv)
     rs.rejects = rejects;
     as_error rerr;
     as_error_clear(&rerr);
+    /* typed input is annotated a record at a time; otherwise threads take batches */
+    int typed = !strcmp(input, "-") && isatty(0);
     int r = nworkers == 1 ? run_serial(&rs, reader, &rerr)
-                          : run_threads(&rs, reader, nworkers, &rerr);
+                          : run_threads(&rs, reader, nworkers, typed ? 1 : BATCH_MAX, &rerr);
     progress_line(&prog, cnt.records, 1);
     as_writer_free(w);
     w = NULL;
