@@ -89,7 +89,8 @@ static int usage_error(const char *msg, const char *arg)
 /* ---------------------------------------------------------------- one slot */
 
 typedef struct slot {
-    /* input, copied from the reader's record */
+    /* input, copied from the reader's record into one block (mem) */
+    char *mem;
     long line;
     int skipped;
     char *skip_reason;
@@ -125,19 +126,7 @@ static char *dup_or_null(const char *s)
 
 static void slot_clear(slot *s)
 {
-    free(s->raw);
-    free(s->skip_reason);
-    free(s->reaction);
-    free(s->substrate);
-    free(s->product);
-    free(s->reagents);
-    free(s->id);
-    for (size_t i = 0; i < s->ncols; i++) {
-        free(s->names[i]);
-        free(s->values[i]);
-    }
-    free(s->names);
-    free(s->values);
+    free(s->mem);
     free(s->substrate_out);
     free(s->reaction_id);
     free(s->reagents_out);
@@ -168,50 +157,74 @@ static long column_of(const as_record *r, const char *v)
     return 0;
 }
 
-/* Copies what annotation needs out of the reader's record; -1 when out of memory. */
+static size_t size_of(const char *t)
+{
+    return t ? strlen(t) + 1 : 0;
+}
+
+/* Copies t (NULL stays NULL) to *at and moves *at past it. */
+static char *put_text(char **at, const char *t, size_t n)
+{
+    if (!t)
+        return NULL;
+    char *d = *at;
+    memcpy(d, t, n);
+    *at += n;
+    return d;
+}
+
+/* Copies what annotation needs out of the reader's record, in one allocation; -1 when out
+ * of memory (s is then as empty as before). */
 static int slot_fill(slot *s, const as_record *r, int keep_columns, int keep_raw)
 {
-    s->line = r->line;
-    if (keep_raw && r->raw) {
-        s->raw = malloc(r->raw_len + 1);
-        if (!s->raw)
+    size_t n_skip = size_of(r->skip_reason), n_rxn = size_of(r->reaction),
+           n_sub = size_of(r->substrate), n_prod = size_of(r->product),
+           n_rgt = size_of(r->reagents), n_id = size_of(r->id);
+    size_t ncols = keep_columns ? r->ncols : 0;
+    size_t need = 2 * ncols * sizeof(char *) + n_skip + n_rxn + n_sub + n_prod + n_rgt + n_id;
+    for (size_t i = 0; i < ncols; i++)
+        need += size_of(r->col_names[i]) + size_of(r->col_values[i]);
+    int raw = keep_raw && r->raw;
+    if (raw)
+        need += r->raw_len + 1;
+    if (need) {
+        s->mem = malloc(need);
+        if (!s->mem)
             return -1;
-        memcpy(s->raw, r->raw, r->raw_len);
-        s->raw[r->raw_len] = '\0';
-        s->raw_len = r->raw_len;
     }
+    char *at = s->mem;
+    if (ncols) { /* the pointer arrays first, where malloc's alignment holds */
+        s->names = (char **)(void *)at;
+        s->values = s->names + ncols;
+        at += 2 * ncols * sizeof(char *);
+        s->ncols = ncols;
+        for (size_t i = 0; i < ncols; i++) {
+            s->names[i] = put_text(&at, r->col_names[i], size_of(r->col_names[i]));
+            s->values[i] = put_text(&at, r->col_values[i], size_of(r->col_values[i]));
+        }
+    }
+    if (raw) {
+        s->raw = at;
+        memcpy(at, r->raw, r->raw_len);
+        at[r->raw_len] = '\0';
+        s->raw_len = r->raw_len;
+        at += r->raw_len + 1;
+    }
+    s->skip_reason = put_text(&at, r->skip_reason, n_skip);
+    s->reaction = put_text(&at, r->reaction, n_rxn);
+    s->substrate = put_text(&at, r->substrate, n_sub);
+    s->product = put_text(&at, r->product, n_prod);
+    s->reagents = put_text(&at, r->reagents, n_rgt);
+    s->id = put_text(&at, r->id, n_id);
+    s->line = r->line;
     s->skipped = r->skipped;
     s->rec_err = r->err;
-    int bad = 0;
-#define DUP(dst, src)                                                                          \
-    do {                                                                                       \
-        if ((src) && !((dst) = dup_or_null(src)))                                              \
-            bad = 1;                                                                           \
-    } while (0)
-    DUP(s->skip_reason, r->skip_reason);
-    DUP(s->reaction, r->reaction);
-    DUP(s->substrate, r->substrate);
-    DUP(s->product, r->product);
-    DUP(s->reagents, r->reagents);
-    DUP(s->id, r->id);
     s->col_reaction = column_of(r, r->reaction);
     s->col_substrate = column_of(r, r->substrate);
     s->col_product = column_of(r, r->product);
     s->col_reagents = column_of(r, r->reagents);
     memcpy(s->warning, r->warning, sizeof s->warning);
-    if (keep_columns && r->ncols) {
-        s->names = calloc(r->ncols, sizeof *s->names);
-        s->values = calloc(r->ncols, sizeof *s->values);
-        if (!s->names || !s->values)
-            return -1;
-        s->ncols = r->ncols;
-        for (size_t i = 0; i < r->ncols; i++) {
-            DUP(s->names[i], r->col_names[i]);
-            DUP(s->values[i], r->col_values[i]);
-        }
-    }
-#undef DUP
-    return bad ? -1 : 0;
+    return 0;
 }
 
 /* ---------------------------------------------------------------- annotating */
