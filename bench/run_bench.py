@@ -1,13 +1,17 @@
 #!/usr/bin/env python3
 """Benchmark of `addsite annotate`: records per second, time per record and peak RSS on
 generated corpora of 10k, 100k and 1M reactions (bench/gen_corpus.py), single-threaded and
-with -j 2. Optional: the same corpus through the RDKit baseline (bench/rdkit_baseline.py) for
-the speed ratio.
+with -j 2. Each run is repeated (--repeat, default 3) and the median time is reported, with
+the runs of -j 1 and -j 2 interleaved so that load from other programs on the machine falls
+on both alike; peak RSS is the largest of the repeats. Optional: the same corpus through the
+RDKit baseline (bench/rdkit_baseline.py) for the speed ratio.
 
-usage: run_bench.py --addsite PATH [--work DIR] [--sizes 10000,100000,1000000] [--rdkit N]
+usage: run_bench.py --addsite PATH [--work DIR] [--sizes 10000,100000,1000000] [--repeat N]
+                    [--rdkit N]
 """
 import argparse
 import os
+import statistics
 import subprocess
 import sys
 import tempfile
@@ -56,6 +60,8 @@ def main():
     ap.add_argument('--addsite', required=True)
     ap.add_argument('--work', default='bench-work')
     ap.add_argument('--sizes', default='10000,100000,1000000')
+    ap.add_argument('--repeat', type=int, default=3,
+                    help='runs per size and thread count; the median time is reported')
     ap.add_argument('--rdkit', type=int, default=0,
                     help='also run the RDKit baseline on this many records (0: skip)')
     a = ap.parse_args()
@@ -68,12 +74,21 @@ def main():
     results = {}
     for n in [int(x) for x in a.sizes.split(',')]:
         path = corpus(a.work, n)
+        times = {1: [], 2: []}
+        peak = {1: None, 2: None}
+        for _ in range(max(1, a.repeat)):
+            for j in (1, 2):
+                dt, rss, rc = run([a.addsite, 'annotate', '-j', str(j), '--on-error', 'ignore',
+                                   '-'], path)
+                if rc not in (0, 3):
+                    print('annotate failed with exit status %d' % rc)
+                    return 1
+                times[j].append(dt)
+                if rss is not None:
+                    peak[j] = max(peak[j] or 0, rss)
         for j in (1, 2):
-            dt, rss, rc = run([a.addsite, 'annotate', '-j', str(j), '--on-error', 'ignore', '-'],
-                              path)
-            if rc not in (0, 3):
-                print('annotate failed with exit status %d' % rc)
-                return 1
+            dt = statistics.median(times[j])
+            rss = peak[j]
             results[(n, j)] = n / dt
             print('%10d %4d %10.2f %12.0f %10.2f %9s' % (n, j, dt, n / dt, dt / n * 1e6,
                                                       '%.1f' % (rss / 1024.0) if rss else 'n/a'))

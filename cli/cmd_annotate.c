@@ -3,11 +3,11 @@
  * (a bounded ring of in-flight records), progress and summary lines, exit status.
  * Must not: hold chemistry (as_check_record resolves, predicts and judges every record).
  *
- * Threads. With -j 1 one thread reads, annotates and writes. With -j N a reader thread fills
- * a ring of 16N slots, N workers annotate any filled slot, and the main thread writes slots in
- * input order as they complete; the reader waits when the ring is full, so memory stays flat
- * however long the input. Annotating a record depends on nothing but the record, the options
- * and the read-only rule table, so the output is the same byte for byte for every N. */
+ * Threads. With -j 1 one thread reads, annotates and writes, a record at a time. With -j N,
+ * N threads each read a batch of consecutive records, annotate it and write whatever is next
+ * in input order (see "the pipeline"); a bounded ring of batches keeps memory flat however
+ * long the input. Annotating a record depends on nothing but the record, the options and the
+ * read-only rule table, so the output is the same byte for byte for every N. */
 #include "addsite/io.h"
 #include "addsite/outcome.h"
 #include "addsite/rules.h"
@@ -16,6 +16,8 @@
 
 #include <cjson/cJSON.h>
 #include <errno.h>
+#include <float.h>
+#include <limits.h>
 #include <math.h>
 #include <pthread.h>
 #include <stdint.h>
@@ -55,7 +57,9 @@ static void help(FILE *f)
           "  -o FILE           write to FILE (a temporary name, renamed when complete)\n"
           "  --rejects FILE    also write the input text of every record that failed, one\n"
           "                    per line (after the header for CSV/TSV input), to fix and rerun\n"
-          "  -j N              N worker threads (default 1); output order is input order\n"
+          "  -j N              N threads (default 1); output order is input order. Threads\n"
+          "                    take records in batches of 64 (one at a time when the input\n"
+          "                    is typed at a terminal)\n"
           "  --on-error P      report (default): annotate everything, exit 3 when any record\n"
           "                    failed; ignore: the same, exit 0; stop: end after the first\n"
           "                    failed record (it is written), exit 1, -o FILE not kept\n"
@@ -85,8 +89,8 @@ static int usage_error(const char *msg, const char *arg)
 /* ---------------------------------------------------------------- one slot */
 
 typedef struct slot {
-    int state;              /* 0 free, 1 read, 2 being annotated, 3 done */
-    /* input, copied from the reader's record */
+    /* input, copied from the reader's record into one block (mem) */
+    char *mem;
     long line;
     int skipped;
     char *skip_reason;
@@ -122,19 +126,7 @@ static char *dup_or_null(const char *s)
 
 static void slot_clear(slot *s)
 {
-    free(s->raw);
-    free(s->skip_reason);
-    free(s->reaction);
-    free(s->substrate);
-    free(s->product);
-    free(s->reagents);
-    free(s->id);
-    for (size_t i = 0; i < s->ncols; i++) {
-        free(s->names[i]);
-        free(s->values[i]);
-    }
-    free(s->names);
-    free(s->values);
+    free(s->mem);
     free(s->substrate_out);
     free(s->reaction_id);
     free(s->reagents_out);
@@ -165,51 +157,74 @@ static long column_of(const as_record *r, const char *v)
     return 0;
 }
 
-/* Copies what annotation needs out of the reader's record; -1 when out of memory. */
+static size_t size_of(const char *t)
+{
+    return t ? strlen(t) + 1 : 0;
+}
+
+/* Copies t (NULL stays NULL) to *at and moves *at past it. */
+static char *put_text(char **at, const char *t, size_t n)
+{
+    if (!t)
+        return NULL;
+    char *d = *at;
+    memcpy(d, t, n);
+    *at += n;
+    return d;
+}
+
+/* Copies what annotation needs out of the reader's record, in one allocation; -1 when out
+ * of memory (s is then as empty as before). */
 static int slot_fill(slot *s, const as_record *r, int keep_columns, int keep_raw)
 {
-    s->line = r->line;
-    if (keep_raw && r->raw) {
-        s->raw = malloc(r->raw_len + 1);
-        if (!s->raw)
+    size_t n_skip = size_of(r->skip_reason), n_rxn = size_of(r->reaction),
+           n_sub = size_of(r->substrate), n_prod = size_of(r->product),
+           n_rgt = size_of(r->reagents), n_id = size_of(r->id);
+    size_t ncols = keep_columns ? r->ncols : 0;
+    size_t need = 2 * ncols * sizeof(char *) + n_skip + n_rxn + n_sub + n_prod + n_rgt + n_id;
+    for (size_t i = 0; i < ncols; i++)
+        need += size_of(r->col_names[i]) + size_of(r->col_values[i]);
+    int raw = keep_raw && r->raw;
+    if (raw)
+        need += r->raw_len + 1;
+    if (need) {
+        s->mem = malloc(need);
+        if (!s->mem)
             return -1;
-        memcpy(s->raw, r->raw, r->raw_len);
-        s->raw[r->raw_len] = '\0';
-        s->raw_len = r->raw_len;
     }
+    char *at = s->mem;
+    if (ncols) { /* the pointer arrays first, where malloc's alignment holds */
+        s->names = (char **)(void *)at;
+        s->values = s->names + ncols;
+        at += 2 * ncols * sizeof(char *);
+        s->ncols = ncols;
+        for (size_t i = 0; i < ncols; i++) {
+            s->names[i] = put_text(&at, r->col_names[i], size_of(r->col_names[i]));
+            s->values[i] = put_text(&at, r->col_values[i], size_of(r->col_values[i]));
+        }
+    }
+    if (raw) {
+        s->raw = at;
+        memcpy(at, r->raw, r->raw_len);
+        at[r->raw_len] = '\0';
+        s->raw_len = r->raw_len;
+        at += r->raw_len + 1;
+    }
+    s->skip_reason = put_text(&at, r->skip_reason, n_skip);
+    s->reaction = put_text(&at, r->reaction, n_rxn);
+    s->substrate = put_text(&at, r->substrate, n_sub);
+    s->product = put_text(&at, r->product, n_prod);
+    s->reagents = put_text(&at, r->reagents, n_rgt);
+    s->id = put_text(&at, r->id, n_id);
+    s->line = r->line;
     s->skipped = r->skipped;
     s->rec_err = r->err;
-    int bad = 0;
-#define DUP(dst, src)                                                                          \
-    do {                                                                                       \
-        if ((src) && !((dst) = dup_or_null(src)))                                              \
-            bad = 1;                                                                           \
-    } while (0)
-    DUP(s->skip_reason, r->skip_reason);
-    DUP(s->reaction, r->reaction);
-    DUP(s->substrate, r->substrate);
-    DUP(s->product, r->product);
-    DUP(s->reagents, r->reagents);
-    DUP(s->id, r->id);
     s->col_reaction = column_of(r, r->reaction);
     s->col_substrate = column_of(r, r->substrate);
     s->col_product = column_of(r, r->product);
     s->col_reagents = column_of(r, r->reagents);
     memcpy(s->warning, r->warning, sizeof s->warning);
-    if (keep_columns && r->ncols) {
-        s->names = calloc(r->ncols, sizeof *s->names);
-        s->values = calloc(r->ncols, sizeof *s->values);
-        if (!s->names || !s->values)
-            return -1;
-        s->ncols = r->ncols;
-        for (size_t i = 0; i < r->ncols; i++) {
-            DUP(s->names[i], r->col_names[i]);
-            DUP(s->values[i], r->col_values[i]);
-        }
-    }
-#undef DUP
-    s->state = 1;
-    return bad ? -1 : 0;
+    return 0;
 }
 
 /* ---------------------------------------------------------------- annotating */
@@ -224,29 +239,171 @@ typedef struct config {
     int keep_raw;           /* 1: records keep their input bytes (for --rejects) */
 } config;
 
+/* ---------------------------------------------------------------- JSON text
+ *
+ * The products and notes arrays are written straight into a buffer, byte for byte as
+ * cJSON_PrintUnformatted writes the same tree (the output predates this code and must not
+ * change); building the tree and printing it cost more than the rest of the command. */
+
+typedef struct jbuf {
+    char *p;
+    size_t len, cap;
+    int bad;                /* out of memory: p is freed and the text is lost */
+} jbuf;
+
+static void jb_put(jbuf *b, const char *s, size_t n)
+{
+    if (b->bad)
+        return;
+    if (b->len + n + 1 > b->cap) {
+        size_t cap = b->cap ? b->cap : 256;
+        while (cap < b->len + n + 1)
+            cap *= 2;
+        char *q = realloc(b->p, cap);
+        if (!q) {
+            free(b->p);
+            memset(b, 0, sizeof *b);
+            b->bad = 1;
+            return;
+        }
+        b->p = q;
+        b->cap = cap;
+    }
+    memcpy(b->p + b->len, s, n);
+    b->len += n;
+    b->p[b->len] = '\0';
+}
+
+static void jb_lit(jbuf *b, const char *s)
+{
+    jb_put(b, s, strlen(s));
+}
+
+/* s as a JSON string: '"' '\\' and the controls \b \f \n \r \t get their short escapes, other
+ * bytes below 0x20 \u00xx, everything else as it is (cJSON's escaping). */
+static void jb_str(jbuf *b, const char *s)
+{
+    static const char hex[] = "0123456789abcdef";
+    jb_put(b, "\"", 1);
+    const char *run = s;
+    for (const unsigned char *u = (const unsigned char *)s;; u++) {
+        unsigned c = *u;
+        if (c >= 0x20 && c != '"' && c != '\\')
+            continue;
+        jb_put(b, run, (size_t)((const char *)u - run));
+        if (c == 0)
+            break;
+        char e[6] = {'\\', 0, '0', '0', 0, 0};
+        size_t k = 2;
+        switch (c) {
+        case '"': e[1] = '"'; break;
+        case '\\': e[1] = '\\'; break;
+        case '\b': e[1] = 'b'; break;
+        case '\f': e[1] = 'f'; break;
+        case '\n': e[1] = 'n'; break;
+        case '\r': e[1] = 'r'; break;
+        case '\t': e[1] = 't'; break;
+        default:
+            e[1] = 'u';
+            e[4] = hex[c >> 4];
+            e[5] = hex[c & 15];
+            k = 6;
+        }
+        jb_put(b, e, k);
+        run = (const char *)u + 1;
+    }
+    jb_put(b, "\"", 1);
+}
+
+/* Writes the decimal digits of u before e; returns where they start. */
+static char *digits(char *e, unsigned long long u)
+{
+    do
+        *--e = (char)('0' + u % 10);
+    while (u /= 10);
+    return e;
+}
+
+/* d as cJSON writes a number: null when not finite, else %1.15g when that reads back as d
+ * (within DBL_EPSILON relative), else %1.17g. Shares are mostly whole or have one or two
+ * decimals: when d is the double nearest to such a short decimal below 1e9, %1.15g writes
+ * exactly that decimal, and it is written here without printf. */
+static void jb_num(jbuf *b, double d)
+{
+    char t[40];
+    if (!isfinite(d)) {
+        jb_put(b, "null", 4);
+        return;
+    }
+    double a = fabs(d);
+    if (a < 1e9 && !(d == 0 && signbit(d))) {
+        static const double scale[3] = {1, 10, 100};
+        for (int k = 0; k < 3; k++) {
+            double v = floor(a * scale[k] + 0.5);
+            if (v / scale[k] != a) /* both exact, so the quotient is correctly rounded */
+                continue;
+            unsigned long long u = (unsigned long long)v, p = k == 2 ? 100 : (unsigned long long)k * 10;
+            char *e = t + sizeof t, *q = e;
+            if (k) {
+                unsigned long long f = u % p;
+                u /= p;
+                if (k == 2 && f % 10 == 0) { /* %g drops the trailing zero */
+                    f /= 10;
+                    p = 10;
+                }
+                char *fe = e;
+                e = digits(fe, f);
+                if (p == 100 && f < 10)
+                    *--e = '0';
+                *--e = '.';
+                q = e;
+            }
+            q = digits(q, u);
+            if (d < 0)
+                *--q = '-';
+            jb_put(b, q, (size_t)(t + sizeof t - q));
+            return;
+        }
+    }
+    snprintf(t, sizeof t, "%1.15g", d);
+    double back = strtod(t, NULL);
+    double big = fabs(back) > fabs(d) ? fabs(back) : fabs(d);
+    if (!(fabs(back - d) <= big * DBL_EPSILON))
+        snprintf(t, sizeof t, "%1.17g", d);
+    jb_lit(b, t);
+}
+
+/* The products array in JSON; NULL when out of memory or a product lacks a text field
+ * (the field is then written as null, as before). */
 static char *products_json(const as_outcome *o)
 {
-    cJSON *a = cJSON_CreateArray();
-    if (!a)
-        return NULL;
-    int ok = 1;
-    for (int i = 0; ok && o && i < o->nproducts; i++) {
+    jbuf b = {0};
+    jb_put(&b, "[", 1);
+    for (int i = 0; o && i < o->nproducts; i++) {
         const as_product *p = &o->products[i];
-        cJSON *e = cJSON_CreateObject();
-        ok &= e != NULL && cJSON_AddItemToArray(a, e);
-        if (!ok)
-            break;
-        ok &= cJSON_AddStringToObject(e, "smiles", p->smiles) != NULL;
-        ok &= cJSON_AddStringToObject(e, "role", as_product_role_name(p->role)) != NULL;
-        ok &= cJSON_AddNumberToObject(e, "share", p->share) != NULL;
-        ok &= cJSON_AddBoolToObject(e, "share_published", p->share_published) != NULL;
-        ok &= cJSON_AddStringToObject(e, "stereo", as_stereo_name(p->stereo)) != NULL;
-        ok &= cJSON_AddStringToObject(e, "regio", p->regio) != NULL;
-        ok &= cJSON_AddBoolToObject(e, "rearranged", p->rearranged) != NULL;
+        const char *role = as_product_role_name(p->role), *stereo = as_stereo_name(p->stereo);
+        if (!p->smiles || !role || !stereo || !p->regio) {
+            free(b.p);
+            return NULL;
+        }
+        /* the keys need no escaping */
+        jb_lit(&b, i ? ",{\"smiles\":" : "{\"smiles\":");
+        jb_str(&b, p->smiles);
+        jb_lit(&b, ",\"role\":");
+        jb_str(&b, role);
+        jb_lit(&b, ",\"share\":");
+        jb_num(&b, p->share);
+        jb_lit(&b, p->share_published ? ",\"share_published\":true"
+                                      : ",\"share_published\":false");
+        jb_lit(&b, ",\"stereo\":");
+        jb_str(&b, stereo);
+        jb_lit(&b, ",\"regio\":");
+        jb_str(&b, p->regio);
+        jb_lit(&b, p->rearranged ? ",\"rearranged\":true" : ",\"rearranged\":false");
+        jb_put(&b, "}", 1);
     }
-    char *s = ok ? cJSON_PrintUnformatted(a) : NULL;
-    cJSON_Delete(a);
-    return s;
+    jb_put(&b, "]", 1);
+    return b.p;
 }
 
 /* "SMILES major 94%; SMILES minor 6%" for TSV/CSV. */
@@ -271,27 +428,39 @@ static char *products_text(const as_outcome *o)
     return s;
 }
 
-static int notes_out(slot *s, const char *const *notes, int n)
+/* The notes as the output format wants them: a JSON array for JSON Lines, " | "-joined text
+ * for TSV and CSV (only that one is made). */
+static int notes_out(const config *cfg, slot *s, const char *const *notes, int n)
 {
-    cJSON *a = cJSON_CreateArray();
-    if (!a)
-        return -1;
+    if (cfg->out_format == AS_FMT_JSONL) {
+        jbuf b = {0};
+        jb_put(&b, "[", 1);
+        for (int i = 0; i < n; i++) {
+            if (i)
+                jb_put(&b, ",", 1);
+            jb_str(&b, notes[i]);
+        }
+        jb_put(&b, "]", 1);
+        s->notes_json = b.p;
+        return b.bad ? -1 : 0;
+    }
     size_t cap = 1;
-    for (int i = 0; i < n; i++) {
-        cJSON_AddItemToArray(a, cJSON_CreateString(notes[i]));
+    for (int i = 0; i < n; i++)
         cap += strlen(notes[i]) + 3;
-    }
-    s->notes_json = cJSON_PrintUnformatted(a);
-    cJSON_Delete(a);
     s->notes_text = malloc(cap);
-    if (!s->notes_json || !s->notes_text)
+    if (!s->notes_text)
         return -1;
-    s->notes_text[0] = '\0';
+    size_t used = 0;
     for (int i = 0; i < n; i++) {
-        if (i)
-            strcat(s->notes_text, " | ");
-        strcat(s->notes_text, notes[i]);
+        size_t k = strlen(notes[i]);
+        if (i) {
+            memcpy(s->notes_text + used, " | ", 3);
+            used += 3;
+        }
+        memcpy(s->notes_text + used, notes[i], k);
+        used += k;
     }
+    s->notes_text[used] = '\0';
     return 0;
 }
 
@@ -320,14 +489,14 @@ static void annotate(const config *cfg, as_check_cache *cache, slot *s)
         s->err = s->rec_err;
         s->err.line = s->rec_err.line ? s->rec_err.line : s->line;
         s->err_column = s->rec_err.column;
-        notes_out(s, notes1, nn);
+        notes_out(cfg, s, notes1, nn);
         return;
     }
     if (s->skipped) {
         s->status = ST_SKIPPED;
         if (s->skip_reason)
             notes1[nn++] = s->skip_reason;
-        notes_out(s, notes1, nn);
+        notes_out(cfg, s, notes1, nn);
         return;
     }
     as_check_input in;
@@ -347,7 +516,7 @@ static void annotate(const config *cfg, as_check_cache *cache, slot *s)
     if (st == AS_ERR_EMPTY) {
         s->status = ST_SKIPPED;
         notes1[nn++] = err.msg;
-        notes_out(s, notes1, nn);
+        notes_out(cfg, s, notes1, nn);
         return;
     }
     if (st != AS_OK) {
@@ -366,7 +535,7 @@ static void annotate(const config *cfg, as_check_cache *cache, slot *s)
             base = s->col_reagents;
         /* the field's first column when the message points at no byte in it */
         s->err.column = base > 0 ? base + (err.offset >= 0 ? err.offset : 0) : 0;
-        notes_out(s, notes1, nn);
+        notes_out(cfg, s, notes1, nn);
         return;
     }
     s->status = ST_ANNOTATED;
@@ -376,8 +545,10 @@ static void annotate(const config *cfg, as_check_cache *cache, slot *s)
     s->source = dup_or_null(as_reagent_source_name(c->reagent_source));
     if (c->outcome && c->outcome->nproducts)
         s->major = dup_or_null(c->outcome->products[0].smiles);
-    s->products_json = products_json(c->outcome);
-    s->products_text = products_text(c->outcome);
+    if (cfg->out_format == AS_FMT_JSONL)
+        s->products_json = products_json(c->outcome);
+    else
+        s->products_text = products_text(c->outcome);
     if (c->has_product) {
         s->has_verdict = 1;
         s->verdict = c->verdict;
@@ -391,7 +562,7 @@ static void annotate(const config *cfg, as_check_cache *cache, slot *s)
             notes[k++] = notes1[i];
         for (int i = 0; i < c->nnotes; i++)
             notes[k++] = c->notes[i];
-        notes_out(s, notes, k);
+        notes_out(cfg, s, notes, k);
         free(notes);
     }
     if (c->no_site) {
@@ -698,106 +869,6 @@ static void progress_line(progress *p, long records, int final)
     fflush(stderr);
 }
 
-/* ---------------------------------------------------------------- the pipeline */
-
-typedef struct pipeline {
-    const config *cfg;
-    as_reader *reader;
-    slot *ring;
-    long cap;
-    long head, work, tail;   /* next to read, next to annotate, next to write */
-    int eof, stop, fatal;
-    as_error read_err;
-    pthread_mutex_t mu;
-    pthread_cond_t space;    /* a slot was freed (reader waits) */
-    pthread_cond_t filled;   /* a slot was filled or input ended (workers wait) */
-    pthread_cond_t done;     /* a slot was annotated or input ended (writer waits) */
-    int idle_workers;        /* workers waiting on `filled` */
-    int reader_waiting;      /* the reader waits on `space` */
-    int writer_waiting;      /* the writer waits on `done` for the slot at `tail` */
-} pipeline;
-
-static void *reader_main(void *arg)
-{
-    pipeline *p = arg;
-    for (;;) {
-        as_record rec;
-        as_error err;
-        as_error_clear(&err);
-        as_status st = as_reader_next(p->reader, &rec, &err);
-        pthread_mutex_lock(&p->mu);
-        if (!p->stop && p->head - p->tail >= p->cap) {
-            /* full: sleep until half the ring is free, so wake-ups come in batches */
-            p->reader_waiting = 1;
-            while (!p->stop && p->head - p->tail > p->cap / 2)
-                pthread_cond_wait(&p->space, &p->mu);
-            p->reader_waiting = 0;
-        }
-        if (p->stop || st != AS_OK || rec.at_end) {
-            if (st != AS_OK) {
-                p->fatal = 1;
-                p->read_err = err;
-            }
-            p->eof = 1;
-            pthread_cond_broadcast(&p->filled);
-            pthread_cond_broadcast(&p->done);
-            pthread_mutex_unlock(&p->mu);
-            return NULL;
-        }
-        slot *s = &p->ring[p->head % p->cap];
-        pthread_mutex_unlock(&p->mu);
-        /* the slot is free and only this thread fills it */
-        int bad = slot_fill(s, &rec, p->cfg->keep_columns, p->cfg->keep_raw);
-        pthread_mutex_lock(&p->mu);
-        if (bad) {
-            p->fatal = 1;
-            p->read_err.code = AS_ERR_NOMEM;
-            snprintf(p->read_err.msg, sizeof p->read_err.msg, "out of memory");
-            p->eof = 1;
-            slot_clear(s);
-            pthread_cond_broadcast(&p->filled);
-            pthread_cond_broadcast(&p->done);
-            pthread_mutex_unlock(&p->mu);
-            return NULL;
-        }
-        p->head++;
-        if (p->idle_workers)
-            pthread_cond_signal(&p->filled);
-        pthread_mutex_unlock(&p->mu);
-    }
-}
-
-static void *worker_main(void *arg)
-{
-    pipeline *p = arg;
-    as_check_cache *cache = as_check_cache_new(); /* NULL: no memo, same results */
-    memo *m = p->cfg->memo ? memo_new() : NULL;
-    pthread_mutex_lock(&p->mu);
-    for (;;) {
-        while (!p->stop && p->work == p->head && !p->eof) {
-            p->idle_workers++;
-            pthread_cond_wait(&p->filled, &p->mu);
-            p->idle_workers--;
-        }
-        if (p->stop || p->work == p->head) {
-            pthread_mutex_unlock(&p->mu);
-            as_check_cache_free(cache);
-            memo_free(m);
-            return NULL;
-        }
-        slot *s = &p->ring[p->work % p->cap];
-        p->work++;
-        s->state = 2;
-        pthread_mutex_unlock(&p->mu);
-        annotate_memo(p->cfg, cache, m, s);
-        pthread_mutex_lock(&p->mu);
-        s->state = 3;
-        /* the writer only ever waits for the slot at tail */
-        if (p->writer_waiting && s == &p->ring[p->tail % p->cap])
-            pthread_cond_signal(&p->done);
-    }
-}
-
 typedef struct run_state {
     const config *cfg;
     as_writer *w;
@@ -907,82 +978,186 @@ static int run_serial(run_state *rs, as_reader *r, as_error *rerr)
     return rc;
 }
 
-static int run_threads(run_state *rs, as_reader *r, int nworkers, as_error *rerr)
+/* ---------------------------------------------------------------- the pipeline */
+
+/* With -j N the main thread and N-1 others run the same loop: take the next batch of up to
+ * BATCH_MAX consecutive records, read it (one thread reads at a time, in input order),
+ * annotate it with the thread's own memos, and hand it in. Whoever hands in the batch that is
+ * next in input order writes it, and every batch after it that is ready, so no thread only
+ * waits and a batch costs a few lock operations instead of a few per record. At most
+ * RING_PER_THREAD * N batches are read and not yet written: a thread that would read past
+ * that waits for the writer, so memory stays flat however long the input. A batch also ends
+ * after BATCH_BYTES of input, which bounds memory when records are long. */
+#define BATCH_MAX 64
+#define BATCH_BYTES (256L * 1024)
+#define RING_PER_THREAD 4
+
+typedef struct batch {
+    slot s[BATCH_MAX];
+    int n;                   /* records read into s */
+    int done;                /* 1: annotated, not yet written */
+} batch;
+
+typedef struct pipeline {
+    const config *cfg;
+    run_state *rs;
+    as_reader *reader;
+    int batch_max;           /* BATCH_MAX, or 1 when a person types the input */
+    batch *ring;
+    long cap;                /* batches in the ring */
+    long nread, nwritten;    /* batches taken for reading; batches written */
+    int reading, writing;    /* a thread is reading / writing (only one at a time each) */
+    int eof, stop, fatal;
+    int waiting;             /* threads waiting on cv */
+    as_error read_err;
+    pthread_mutex_t mu;
+    pthread_cond_t cv;       /* the reader is free, a batch was written, or the run ended */
+} pipeline;
+
+/* Reads records into b until it is full; 0, or 1 at the end of input, or -1 when reading
+ * failed or memory ran out (err says which). The records read before stay in b. */
+static int read_batch(pipeline *p, batch *b, as_error *err)
+{
+    long bytes = 0;
+    while (b->n < p->batch_max && bytes < BATCH_BYTES) {
+        as_record rec;
+        if (as_reader_next(p->reader, &rec, err) != AS_OK)
+            return -1;
+        if (rec.at_end)
+            return 1;
+        slot *s = &b->s[b->n];
+        if (slot_fill(s, &rec, p->cfg->keep_columns, p->cfg->keep_raw)) {
+            slot_clear(s);
+            as_error_clear(err);
+            err->code = AS_ERR_NOMEM;
+            snprintf(err->msg, sizeof err->msg, "out of memory");
+            return -1;
+        }
+        b->n++;
+        bytes += (long)rec.raw_len + 1;
+    }
+    return 0;
+}
+
+/* Writes the batches that are next in input order and annotated; called with mu held by a
+ * thread that is not writing, returns with mu held. */
+static void write_ready(pipeline *p)
+{
+    p->writing = 1;
+    while (!p->stop && p->nwritten < p->nread) {
+        batch *b = &p->ring[p->nwritten % p->cap];
+        if (!b->done)
+            break;
+        pthread_mutex_unlock(&p->mu);
+        int stop = 0;
+        for (int i = 0; i < b->n; i++) {
+            if (!stop)
+                stop = emit(p->rs, &b->s[i]);
+            slot_clear(&b->s[i]);
+        }
+        pthread_mutex_lock(&p->mu);
+        b->n = 0;
+        b->done = 0;
+        p->nwritten++;
+        if (stop)
+            p->stop = 1;
+        if (p->waiting)
+            pthread_cond_broadcast(&p->cv);
+    }
+    p->writing = 0;
+}
+
+static void *worker_main(void *arg)
+{
+    pipeline *p = arg;
+    as_check_cache *cache = as_check_cache_new(); /* NULL: no memo, same results */
+    memo *m = p->cfg->memo ? memo_new() : NULL;
+    pthread_mutex_lock(&p->mu);
+    for (;;) {
+        while (!p->stop && !p->eof && (p->reading || p->nread - p->nwritten >= p->cap)) {
+            p->waiting++;
+            pthread_cond_wait(&p->cv, &p->mu);
+            p->waiting--;
+        }
+        if (p->stop || p->eof)
+            break;
+        p->reading = 1;
+        batch *b = &p->ring[p->nread++ % p->cap];
+        pthread_mutex_unlock(&p->mu);
+        as_error err;
+        as_error_clear(&err);
+        int end = read_batch(p, b, &err);
+        pthread_mutex_lock(&p->mu);
+        p->reading = 0;
+        if (end) {
+            p->eof = 1;
+            if (end < 0) {
+                p->fatal = 1;
+                p->read_err = err;
+            }
+        }
+        if (p->waiting)
+            pthread_cond_broadcast(&p->cv);
+        if (!b->n) { /* the end of input: nobody took a batch after this one */
+            p->nread--;
+            continue;
+        }
+        pthread_mutex_unlock(&p->mu);
+        for (int i = 0; i < b->n; i++)
+            annotate_memo(p->cfg, cache, m, &b->s[i]);
+        pthread_mutex_lock(&p->mu);
+        b->done = 1;
+        if (!p->writing)
+            write_ready(p);
+    }
+    pthread_mutex_unlock(&p->mu);
+    as_check_cache_free(cache);
+    memo_free(m);
+    return NULL;
+}
+
+static int run_threads(run_state *rs, as_reader *r, int nthreads, int batch_max,
+                       as_error *rerr)
 {
     pipeline p;
     memset(&p, 0, sizeof p);
     p.cfg = rs->cfg;
+    p.rs = rs;
     p.reader = r;
-    p.cap = 16L * nworkers;
+    p.batch_max = batch_max;
+    p.cap = (long)RING_PER_THREAD * nthreads;
     p.ring = calloc((size_t)p.cap, sizeof *p.ring);
-    if (!p.ring) {
+    pthread_t *t = calloc((size_t)nthreads, sizeof *t);
+    if (!p.ring || !t) {
+        free(p.ring);
+        free(t);
         rerr->code = AS_ERR_NOMEM;
         snprintf(rerr->msg, sizeof rerr->msg, "out of memory");
         return -1;
     }
     pthread_mutex_init(&p.mu, NULL);
-    pthread_cond_init(&p.space, NULL);
-    pthread_cond_init(&p.filled, NULL);
-    pthread_cond_init(&p.done, NULL);
-    pthread_t rt, *wt = calloc((size_t)nworkers, sizeof *wt);
-    int nstarted = 0, reader_started = 0;
-    if (wt && pthread_create(&rt, NULL, reader_main, &p) == 0)
-        reader_started = 1;
-    for (int i = 0; reader_started && i < nworkers; i++)
-        if (pthread_create(&wt[i], NULL, worker_main, &p) == 0)
+    pthread_cond_init(&p.cv, NULL);
+    /* the main thread is one of the N; when a thread cannot be started the others do its
+     * share, the output is the same */
+    int nstarted = 0;
+    for (int i = 1; i < nthreads; i++)
+        if (pthread_create(&t[nstarted], NULL, worker_main, &p) == 0)
             nstarted++;
+    worker_main(&p);
+    for (int i = 0; i < nstarted; i++)
+        pthread_join(t[i], NULL);
     int rc = 0;
-    if (!reader_started || !nstarted) {
-        pthread_mutex_lock(&p.mu);
-        p.stop = 1;
-        pthread_cond_broadcast(&p.space);
-        pthread_cond_broadcast(&p.filled);
-        pthread_mutex_unlock(&p.mu);
-        rerr->code = AS_ERR_NOMEM;
-        snprintf(rerr->msg, sizeof rerr->msg, "could not start threads");
-        rc = -1;
-    }
-    pthread_mutex_lock(&p.mu);
-    while (rc == 0) {
-        slot *s = &p.ring[p.tail % p.cap];
-        while (!(p.tail < p.head && s->state == 3) && !(p.eof && p.tail == p.head)) {
-            p.writer_waiting = 1;
-            pthread_cond_wait(&p.done, &p.mu);
-            p.writer_waiting = 0;
-        }
-        if (p.tail == p.head && p.eof)
-            break;
-        pthread_mutex_unlock(&p.mu);
-        int stop = emit(rs, s);
-        slot_clear(s);
-        pthread_mutex_lock(&p.mu);
-        p.tail++;
-        if (p.reader_waiting && p.head - p.tail <= p.cap / 2)
-            pthread_cond_signal(&p.space);
-        if (stop) {
-            p.stop = 1;
-            pthread_cond_broadcast(&p.space);
-            pthread_cond_broadcast(&p.filled);
-            break;
-        }
-    }
-    if (p.fatal && rc == 0) {
+    if (p.fatal) {
         *rerr = p.read_err;
         rc = -1;
     }
-    pthread_mutex_unlock(&p.mu);
-    if (reader_started)
-        pthread_join(rt, NULL);
-    for (int i = 0; i < nstarted; i++)
-        pthread_join(wt[i], NULL);
     for (long i = 0; i < p.cap; i++)
-        slot_clear(&p.ring[i]);
+        for (int k = 0; k < p.ring[i].n; k++)
+            slot_clear(&p.ring[i].s[k]);
     free(p.ring);
-    free(wt);
+    free(t);
     pthread_mutex_destroy(&p.mu);
-    pthread_cond_destroy(&p.space);
-    pthread_cond_destroy(&p.filled);
-    pthread_cond_destroy(&p.done);
+    pthread_cond_destroy(&p.cv);
     return rc;
 }
 
@@ -1182,8 +1357,10 @@ int as_cli_annotate(int argc, char **argv)
     rs.rejects = rejects;
     as_error rerr;
     as_error_clear(&rerr);
+    /* typed input is annotated a record at a time; otherwise threads take batches */
+    int typed = !strcmp(input, "-") && isatty(0);
     int r = nworkers == 1 ? run_serial(&rs, reader, &rerr)
-                          : run_threads(&rs, reader, nworkers, &rerr);
+                          : run_threads(&rs, reader, nworkers, typed ? 1 : BATCH_MAX, &rerr);
     progress_line(&prog, cnt.records, 1);
     as_writer_free(w);
     w = NULL;

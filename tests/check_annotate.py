@@ -8,7 +8,10 @@ Checks (common practice for batch tools, see the project's user notes on batch w
   unterminated lines): as many output records as input lines, every line parses as JSON,
   every malformed record carries an error with code, line and a position, statuses as
   expected; TSV and CSV outputs have one row per record;
-- -j 2 and -j 4 output equals -j 1 output byte for byte on a few thousand records;
+- -j 2 and -j 4 output equals -j 1 output byte for byte on a few thousand records; with
+  -j N the threads take records in batches, so --on-error stop deep inside a batch, --rejects,
+  --progress and the summary, and records long enough to end a batch early are checked
+  against -j 1 too;
 - error policies: report exits 3, ignore exits 0, stop exits 1 after writing the first bad
   record and leaves no -o file;
 - -o to /dev/full fails cleanly (exit 1, a message, no crash); -o FILE is complete on success;
@@ -27,7 +30,7 @@ import tempfile
 
 ADDSITE = os.path.abspath(os.environ.get('ADDSITE', 'build/addsite'))
 SRC = os.environ.get('AS_SOURCE_DIR', os.path.join(os.path.dirname(__file__), '..'))
-SAN = re.compile(rb'AddressSanitizer|LeakSanitizer|runtime error:|Segmentation fault')
+SAN = re.compile(rb'AddressSanitizer|LeakSanitizer|ThreadSanitizer|runtime error:|Segmentation fault')
 passed = failed = 0
 
 
@@ -204,7 +207,49 @@ with tempfile.TemporaryDirectory() as tmp:
     p = run([mixed, '--rejects', '/dev/full'])
     check(p.returncode == 1, 'rejects on a full disk: exit 1', p.returncode)
 
-# 8. usage errors
+# 8. batches under -j N behave as -j 1: a stop deep inside a later batch, rejects, progress
+# and summary, long records that end a batch early
+good = raw.split(b'\n')[0] + b'\n'            # mixed.smi line 1: annotated, agrees
+bad = raw.split(b'\n')[1] + b'\n'             # mixed.smi line 2: an unclosed branch
+with tempfile.TemporaryDirectory() as tmp:
+    deep = os.path.join(tmp, 'deep.smi')
+    with open(deep, 'wb') as fh:
+        fh.write(good * 150 + bad + good * 300 + bad + good * 10)
+    ref = run([deep, '-q', '-j', '1', '--on-error', 'stop'])
+    check(ref.returncode == 1 and len(ref.stdout.splitlines()) == 151,
+          'stop -j 1: 150 good records, then the bad one', len(ref.stdout.splitlines()))
+    for j in ('2', '3', '5'):
+        p = run([deep, '-q', '-j', j, '--on-error', 'stop'])
+        check(p.returncode == 1 and p.stdout == ref.stdout and p.stderr == ref.stderr,
+              f'stop -j {j} at record 151: same output and message as -j 1',
+              (p.returncode, len(p.stdout.splitlines()), p.stderr[-300:]))
+    rej1 = os.path.join(tmp, 'rej1.smi')
+    p1 = run([deep, '-j', '1', '--rejects', rej1, '--progress'])
+    for j in ('2', '4'):
+        rejj = os.path.join(tmp, f'rej{j}.smi')
+        pj = run([deep, '-j', j, '--rejects', rejj, '--progress'])
+        check(pj.returncode == 3 and pj.stdout == p1.stdout, f'-j {j} --rejects: same output')
+        check(open(rejj, 'rb').read() == open(rej1, 'rb').read() == bad * 2,
+              f'-j {j} --rejects: the two bad lines, in order')
+        summ = pj.stderr.decode().splitlines()
+        check(any(l.startswith('annotate: 462 records: annotated 460, skipped 0, error 2')
+                  for l in summ), f'-j {j}: summary counts every record', pj.stderr[-400:])
+        check(re.search(rb'annotate: 462 records, [0-9]+ records/s', pj.stderr) is not None,
+              f'-j {j} --progress: final progress line', pj.stderr[-400:])
+    # lines over --max-record (limit errors, kept to 100,000 bytes each) end batches by size
+    longrec = os.path.join(tmp, 'long.smi')
+    with open(longrec, 'wb') as fh:
+        for i in range(40):
+            fh.write(good * 5 + b'C' * 120000 + b'>>CC\tHBr\n')
+    one = run([longrec, '-q', '-j', '1', '--max-record', '100000'])
+    check(len(one.stdout.splitlines()) == 240, 'long records: one output record each',
+          len(one.stdout.splitlines()))
+    for j in ('2', '3'):
+        p = run([longrec, '-q', '-j', j, '--max-record', '100000'])
+        check(p.stdout == one.stdout and p.returncode == one.returncode,
+              f'long records -j {j}: same output as -j 1')
+
+# 9. usage errors
 check(run(['--format', 'xml']).returncode == 2, 'bad --format: exit 2')
 check(run(['/no/such/file.smi']).returncode == 2, 'missing input: exit 2')
 check(run([mixed, '--reagents', 'NaOCl']).returncode == 2, 'unrecognised default reagents: exit 2')
