@@ -1,6 +1,6 @@
 /* cmd_annotate.c — `addsite annotate`: one annotated output record per input record, in order.
- * Owns: the annotate subcommand's arguments, the reader → workers → in-order writer pipeline
- * (a bounded ring of in-flight records), progress and summary lines, exit status.
+ * Owns: the annotate subcommand's arguments, the batch pipeline (threads that read, annotate
+ * and write batches in input order), progress and summary lines, exit status.
  * Must not: hold chemistry (as_check_record resolves, predicts and judges every record).
  *
  * Threads. With -j 1 one thread reads, annotates and writes, a record at a time. With -j N,
