@@ -137,7 +137,66 @@ static as_status pass_valence(as_mol *m, as_error *err)
     return AS_OK;
 }
 
+/* ---------------------------------------------------------------- scratch memory */
+
+/* Per-call scratch of a pass: a block on the stack for ordinary molecules (up to about a
+ * hundred atoms), one heap block beyond that. Nothing is kept between calls, so passes stay
+ * safe to run on several molecules in several threads at once. */
+typedef struct scratch {
+    unsigned char *base;
+    size_t used, cap;
+    void *heap;
+    uint64_t local[640];
+} scratch;
+
+static size_t al8(size_t n)
+{
+    return (n + 7) & ~(size_t)7;
+}
+
+/* Makes room for need bytes (the sum of al8() of every later take); 0 on success. */
+static int scratch_init(scratch *s, size_t need)
+{
+    s->used = 0;
+    s->heap = NULL;
+    if (need <= sizeof s->local) {
+        s->base = (unsigned char *)s->local;
+        s->cap = sizeof s->local;
+        return 0;
+    }
+    s->heap = malloc(need);
+    s->base = s->heap;
+    s->cap = need;
+    return s->heap ? 0 : -1;
+}
+
+/* Hands out the next n bytes (8-aligned); the caller sized the block in scratch_init. */
+static void *scratch_take(scratch *s, size_t n)
+{
+    void *p = s->base + s->used;
+    s->used += al8(n);
+    return p;
+}
+
+static void scratch_done(scratch *s)
+{
+    free(s->heap);
+}
+
 /* ---------------------------------------------------------------- pass: rings */
+
+/* How the ring pass works (the result is the same as running the full search on every ring
+ * system, which it was checked against):
+ *  1. Ring bonds by bridge finding (Tarjan, linear), which also counts components.
+ *  2. Ring systems (atoms joined by ring bonds) with their cyclomatic number. A system with
+ *     cyclomatic number 1 is a single ring: every atom has two ring bonds, and the ring is
+ *     walked directly.
+ *  3. Fused, spiro-free bridged and other systems with more than one ring get the full
+ *     search: for each ring bond the shortest cycle through it (breadth first), candidates
+ *     sorted by size, and a GF(2) basis keeps the independent ones (smallest set of smallest
+ *     rings).
+ * Rings are listed by size, ties by the lowest-numbered bond that found them; a ring's atoms
+ * start at atom a of that bond and run round the ring away from atom b, ending at b. */
 
 typedef struct ring_work {
     int nb;           /* bonds */
@@ -147,30 +206,20 @@ typedef struct ring_work {
     int nbasis;
 } ring_work;
 
-/* Tarjan bridge finding, iterative: is_ring_bond[b] = 1 when b lies on a cycle. */
-static int find_ring_bonds(const as_mol *m, char *is_ring_bond)
+/* Tarjan bridge finding, iterative: ringb[b] = 1 when b lies on a cycle. The five arrays
+ * hold natoms ints each (caller's scratch). Returns the number of connected components. */
+static int find_ring_bonds(const as_mol *m, char *ringb, int *disc, int *low, int *parent_bond,
+                           int *iter, int *stack)
 {
-    int n = m->natoms;
-    int *disc = malloc((size_t)n * sizeof(int));
-    int *low = malloc((size_t)n * sizeof(int));
-    int *parent_bond = malloc((size_t)n * sizeof(int));
-    int *iter = malloc((size_t)n * sizeof(int));
-    int *stack = malloc((size_t)n * sizeof(int));
-    if (!disc || !low || !parent_bond || !iter || !stack) {
-        free(disc);
-        free(low);
-        free(parent_bond);
-        free(iter);
-        free(stack);
-        return -1;
-    }
+    int n = m->natoms, ncomp = 0;
     for (int i = 0; i < n; i++)
         disc[i] = -1;
-    memset(is_ring_bond, 1, (size_t)m->nbonds);
+    memset(ringb, 1, (size_t)m->nbonds);
     int t = 0;
     for (int s = 0; s < n; s++) {
         if (disc[s] >= 0)
             continue;
+        ncomp++;
         int top = 0;
         stack[top++] = s;
         disc[s] = low[s] = t++;
@@ -198,17 +247,12 @@ static int find_ring_bonds(const as_mol *m, char *is_ring_bond)
                     if (low[u] < low[p])
                         low[p] = low[u];
                     if (low[u] > disc[p])
-                        is_ring_bond[parent_bond[u]] = 0;
+                        ringb[parent_bond[u]] = 0;
                 }
             }
         }
     }
-    free(disc);
-    free(low);
-    free(parent_bond);
-    free(iter);
-    free(stack);
-    return 0;
+    return ncomp;
 }
 
 /* Inserts set into the GF(2) basis when independent; returns 1 when added. */
@@ -241,8 +285,10 @@ static int basis_add(ring_work *w, uint64_t *set)
     return 1;
 }
 
+/* A ring found: its size, the bond whose search found it, where its atoms are. */
 typedef struct cand {
     int size;
+    int bond;
     int start;   /* offset into the atom pool */
 } cand;
 
@@ -251,56 +297,40 @@ static int cand_cmp(const void *x, const void *y)
     const cand *a = x, *b = y;
     if (a->size != b->size)
         return a->size - b->size;
-    return a->start - b->start;
+    return a->bond - b->bond;
 }
 
-static as_status pass_rings(as_mol *m, as_error *err)
+/* Smallest set of smallest rings of the systems whose cyclomatic number cyc[sys] is above 1.
+ * dist, prevb and queue are natoms ints of scratch. On success *out holds the accepted rings
+ * (sorted, atoms in *out_pool; both new, caller frees) and *nout their number. */
+static as_status complex_rings(as_mol *m, const char *ringb, const int *sys, const int *cyc,
+                               int target, int *dist, int *prevb, int *queue, cand **out,
+                               int **out_pool, int *nout, as_error *err)
 {
-    free(m->ring_start);
-    free(m->ring_atoms);
-    m->ring_start = NULL;
-    m->ring_atoms = NULL;
-    m->nrings = 0;
-    for (int i = 0; i < m->natoms; i++)
-        m->atoms[i].ring_size = 0;
-    for (int i = 0; i < m->nbonds; i++)
-        m->bonds[i].ring_size = 0;
-    if (m->nbonds == 0)
-        return AS_OK;
-    int *comp = malloc((size_t)m->natoms * sizeof(int));
-    if (!comp)
-        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
-    int ncomp = as_mol_components(m, comp);
-    free(comp);
-    int target = m->nbonds - m->natoms + ncomp;
-    if (target <= 0)
-        return AS_OK;
-
     as_status st = AS_OK;
     int n = m->natoms;
-    char *ringb = malloc((size_t)m->nbonds);
-    int *dist = malloc((size_t)n * sizeof(int));
-    int *prevb = malloc((size_t)n * sizeof(int));
-    int *queue = malloc((size_t)n * sizeof(int));
     cand *cands = NULL;
     int ncands = 0, capc = 0;
     int *pool = NULL;
     int npool = 0, cappool = 0;
     ring_work w = {m->nbonds, (m->nbonds + 63) / 64, NULL, NULL, 0};
     uint64_t *set = NULL;
-    if (!ringb || !dist || !prevb || !queue || find_ring_bonds(m, ringb)) {
-        st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
-        goto out;
-    }
+    cand *acc = NULL;
+    int *apool = NULL;
+    int nacc = 0, aused = 0;
+    *out = NULL;
+    *out_pool = NULL;
+    *nout = 0;
     /* Candidates: for each ring bond u-v, the shortest path v..u avoiding the bond, closed by
      * it; every bond's smallest ring of up to AS_RING_SEARCH_MAX atoms is then known exactly.
      * The search stops at that size (a ring bond of a larger ring gets ring_size
      * AS_RING_SEARCH_MAX + 1 and no SSSR entry), and only the atoms it reached are reset, so
-     * a 100,000-atom ring or 20,000 small rings cost about n * min(ring, limit), not n². */
+     * a 100,000-atom ring system or 20,000 small rings cost about n * min(ring, limit), not
+     * n². */
     for (int i = 0; i < n; i++)
         dist[i] = -1;
     for (int b = 0; b < m->nbonds; b++) {
-        if (!ringb[b])
+        if (!ringb[b] || cyc[sys[m->bonds[b].a]] <= 1)
             continue;
         int u = m->bonds[b].a, v = m->bonds[b].b;
         int head = 0, tail = 0;
@@ -372,26 +402,26 @@ static as_status pass_rings(as_mol *m, as_error *err)
             capc = nc;
         }
         cands[ncands].size = size;
+        cands[ncands].bond = b;
         cands[ncands].start = npool;
         ncands++;
         npool += size;
     }
-    if (cands) /* NULL when every ring is larger than AS_RING_SEARCH_MAX */
-        qsort(cands, (size_t)ncands, sizeof(cand), cand_cmp);
-    if (w.words <= 0 || target > m->nbonds) /* never: keeps the sizes below provably small */
+    if (!cands) /* every ring is larger than AS_RING_SEARCH_MAX */
+        goto out;
+    qsort(cands, (size_t)ncands, sizeof(cand), cand_cmp);
+    if (w.words <= 0 || target <= 0 || target > m->nbonds) /* never: keeps sizes small */
         goto out;
     w.basis = calloc((size_t)target * (size_t)w.words, sizeof(uint64_t));
     w.pivot = malloc((size_t)target * sizeof(int));
     set = malloc((size_t)w.words * sizeof(uint64_t));
-    m->ring_start = malloc((size_t)(target + 1) * sizeof(int));
-    m->ring_atoms = malloc((size_t)(npool > 0 ? npool : 1) * sizeof(int));
-    if (!w.basis || !w.pivot || !set || !m->ring_start || !m->ring_atoms) {
+    acc = malloc((size_t)target * sizeof(cand));
+    apool = malloc((size_t)npool * sizeof(int));
+    if (!w.basis || !w.pivot || !set || !acc || !apool) {
         st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
         goto out;
     }
-    int used = 0;
-    m->ring_start[0] = 0;
-    for (int c = 0; c < ncands && m->nrings < target; c++) {
+    for (int c = 0; c < ncands && nacc < target; c++) {
         memset(set, 0, (size_t)w.words * sizeof(uint64_t));
         const int *ra = pool + cands[c].start;
         int sz = cands[c].size;
@@ -401,10 +431,178 @@ static as_status pass_rings(as_mol *m, as_error *err)
         }
         if (!basis_add(&w, set))
             continue;
-        memcpy(m->ring_atoms + used, ra, (size_t)sz * sizeof(int));
-        used += sz;
-        m->nrings++;
-        m->ring_start[m->nrings] = used;
+        memcpy(apool + aused, ra, (size_t)sz * sizeof(int));
+        acc[nacc].size = sz;
+        acc[nacc].bond = cands[c].bond;
+        acc[nacc].start = aused;
+        nacc++;
+        aused += sz;
+    }
+    *out = acc;
+    *out_pool = apool;
+    *nout = nacc;
+    acc = NULL;
+    apool = NULL;
+out:
+    free(cands);
+    free(pool);
+    free(w.basis);
+    free(w.pivot);
+    free(set);
+    free(acc);
+    free(apool);
+    return st;
+}
+
+static as_status pass_rings(as_mol *m, as_error *err)
+{
+    free(m->ring_start);
+    free(m->ring_atoms);
+    m->ring_start = NULL;
+    m->ring_atoms = NULL;
+    m->nrings = 0;
+    for (int i = 0; i < m->natoms; i++)
+        m->atoms[i].ring_size = 0;
+    for (int i = 0; i < m->nbonds; i++)
+        m->bonds[i].ring_size = 0;
+    if (m->nbonds == 0)
+        return AS_OK;
+    int n = m->natoms;
+    size_t ni = al8((size_t)n * sizeof(int));
+    scratch sc;
+    if (scratch_init(&sc, 11 * ni + al8((size_t)m->nbonds) + al8(3 * (size_t)n * sizeof(int))))
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    int *disc = scratch_take(&sc, ni), *low = scratch_take(&sc, ni);
+    int *parent_bond = scratch_take(&sc, ni), *iter = scratch_take(&sc, ni);
+    int *stack = scratch_take(&sc, ni), *sys = scratch_take(&sc, ni);
+    int *cyc = scratch_take(&sc, ni), *spool = scratch_take(&sc, ni);
+    cand *simple = scratch_take(&sc, 3 * (size_t)n * sizeof(int));
+    char *ringb = scratch_take(&sc, (size_t)m->nbonds);
+    as_status st = AS_OK;
+    cand *cx = NULL;
+    int *cxpool = NULL, ncx = 0;
+
+    int ncomp = find_ring_bonds(m, ringb, disc, low, parent_bond, iter, stack);
+    if (m->nbonds - m->natoms + ncomp <= 0)
+        goto out; /* acyclic */
+
+    /* ring systems and their cyclomatic numbers (ring bonds - atoms + 1) */
+    int nsys = 0, target_cx = 0;
+    for (int i = 0; i < n; i++)
+        sys[i] = -1;
+    for (int s = 0; s < n; s++) {
+        if (sys[s] >= 0)
+            continue;
+        int ring_atom = 0;
+        for (int k = 0; k < m->atoms[s].degree && !ring_atom; k++)
+            ring_atom = ringb[m->atoms[s].nbond[k]];
+        if (!ring_atom)
+            continue;
+        int top = 0, na = 0, ends = 0;
+        stack[top++] = s;
+        sys[s] = nsys;
+        while (top) {
+            int x = stack[--top];
+            na++;
+            for (int k = 0; k < m->atoms[x].degree; k++) {
+                if (!ringb[m->atoms[x].nbond[k]])
+                    continue;
+                ends++;
+                int y = m->atoms[x].nbr[k];
+                if (sys[y] < 0) {
+                    sys[y] = nsys;
+                    stack[top++] = y;
+                }
+            }
+        }
+        cyc[nsys] = ends / 2 - na + 1;
+        if (cyc[nsys] > 1)
+            target_cx += cyc[nsys];
+        nsys++;
+    }
+
+    /* single rings: walked from atom a of their lowest-numbered bond, away from atom b */
+    int nsimple = 0, nspool = 0;
+    for (int b = 0; b < m->nbonds; b++) {
+        if (!ringb[b])
+            continue;
+        int id = sys[m->bonds[b].a];
+        if (cyc[id] != 1)
+            continue;
+        cyc[id] = 0; /* done */
+        int u = m->bonds[b].a, v = m->bonds[b].b, cur = u, came = b, size = 0;
+        int *ring = spool + nspool;
+        for (;;) {
+            ring[size++] = cur;
+            if (cur == v)
+                break;
+            const as_atom *a = &m->atoms[cur];
+            int k = 0;
+            while (a->nbond[k] == came || !ringb[a->nbond[k]])
+                k++;
+            came = a->nbond[k];
+            cur = a->nbr[k];
+        }
+        int rs = size <= AS_RING_SEARCH_MAX ? size : AS_RING_SEARCH_MAX + 1;
+        for (int j = 0; j < size; j++) {
+            const as_atom *a = &m->atoms[ring[j]];
+            for (int k = 0; k < a->degree; k++)
+                if (ringb[a->nbond[k]])
+                    m->bonds[a->nbond[k]].ring_size = rs;
+        }
+        if (size > AS_RING_SEARCH_MAX)
+            continue;
+        simple[nsimple].size = size;
+        simple[nsimple].bond = b;
+        simple[nsimple].start = nspool;
+        nsimple++;
+        nspool += size;
+    }
+    /* a handful at most: insertion sort by size, then bond */
+    for (int i = 1; i < nsimple; i++)
+        for (int j = i; j > 0 && cand_cmp(&simple[j - 1], &simple[j]) > 0; j--) {
+            cand t = simple[j];
+            simple[j] = simple[j - 1];
+            simple[j - 1] = t;
+        }
+
+    if (target_cx > 0 &&
+        (st = complex_rings(m, ringb, sys, cyc, target_cx, disc, low, iter, &cx, &cxpool, &ncx,
+                            err)) != AS_OK)
+        goto out;
+
+    /* merge the two sorted lists */
+    int nr = nsimple + ncx;
+    if (nr > 0) {
+        int total = nspool;
+        for (int i = 0; i < ncx; i++)
+            total += cx[i].size;
+        m->ring_start = malloc((size_t)(nr + 1) * sizeof(int));
+        m->ring_atoms = malloc((size_t)total * sizeof(int));
+        if (!m->ring_start || !m->ring_atoms) {
+            free(m->ring_start);
+            free(m->ring_atoms);
+            m->ring_start = NULL;
+            m->ring_atoms = NULL;
+            st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+            goto out;
+        }
+        int i = 0, j = 0, used = 0;
+        m->ring_start[0] = 0;
+        while (i < nsimple || j < ncx) {
+            const int *src;
+            int sz;
+            if (j == ncx || (i < nsimple && cand_cmp(&simple[i], &cx[j]) < 0)) {
+                src = spool + simple[i].start;
+                sz = simple[i++].size;
+            } else {
+                src = cxpool + cx[j].start;
+                sz = cx[j++].size;
+            }
+            memcpy(m->ring_atoms + used, src, (size_t)sz * sizeof(int));
+            used += sz;
+            m->ring_start[++m->nrings] = used;
+        }
     }
     for (int b = 0; b < m->nbonds; b++) {
         int s = m->bonds[b].ring_size;
@@ -417,15 +615,9 @@ static as_status pass_rings(as_mol *m, as_error *err)
         }
     }
 out:
-    free(ringb);
-    free(dist);
-    free(prevb);
-    free(queue);
-    free(cands);
-    free(pool);
-    free(w.basis);
-    free(w.pivot);
-    free(set);
+    free(cx);
+    free(cxpool);
+    scratch_done(&sc);
     return st;
 }
 

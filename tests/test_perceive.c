@@ -7,6 +7,7 @@
 #include <stdint.h>
 #include <cmocka.h>
 
+#include <stdio.h>
 #include <string.h>
 
 #include "addsite/mol.h"
@@ -62,6 +63,64 @@ static void perceive_should_find_sssr_and_ring_sizes(void **state)
     as_mol_free(m);
     m = parse_ok("CCCC");
     assert_int_equal(m->nrings, 0);
+    as_mol_free(m);
+}
+
+/* Writes the ring list of m as "a,b,c;d,e,f;" (0-based atoms, in stored order). */
+static void ring_list(const as_mol *m, char *buf, size_t cap)
+{
+    size_t used = 0;
+    buf[0] = '\0';
+    for (int r = 0; r < m->nrings; r++) {
+        for (int k = m->ring_start[r]; k < m->ring_start[r + 1]; k++)
+            used += (size_t)snprintf(buf + used, cap - used, "%d,", m->ring_atoms[k]);
+        used += (size_t)snprintf(buf + used, cap - used, ";");
+    }
+}
+
+static void perceive_should_list_rings_in_a_fixed_order(void **state)
+{
+    (void)state;
+    /* Order: by size, ties by the lowest bond that found the ring; atoms from that bond's
+     * first atom round the ring away from its second. Single rings are walked directly and
+     * fused or spiro systems searched in full: the expected lists are the output of the
+     * full search on every system (the implementation before the single-ring shortcut). */
+    static const struct {
+        const char *smiles, *rings;
+    } cases[] = {
+        {"C1CC1C2CCCC2.c1ccccc1C1CCCCC1", "0,2,1,;3,7,6,5,4,;8,13,12,11,10,9,;14,19,18,17,16,15,;"},
+        {"C1CCC2(CC1)CCCC2", "3,9,8,7,6,;0,5,4,3,2,1,;"},
+        {"C1CCC1.C1CC1.C1CCCCC1CC1CCC2CCCCC2C1",
+         "4,6,5,;0,3,2,1,;7,12,11,10,9,8,;14,23,22,17,16,15,;17,22,21,20,19,18,;"},
+        {"C1CC2CCC1C2", "0,5,6,2,1,;2,6,5,4,3,;"},
+    };
+    char buf[512];
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        as_mol *m = parse_ok(cases[i].smiles);
+        ring_list(m, buf, sizeof buf);
+        if (strcmp(buf, cases[i].rings) != 0)
+            fail_msg("%s: rings %s, expected %s", cases[i].smiles, buf, cases[i].rings);
+        as_mol_free(m);
+    }
+    /* a single ring larger than the search limit: sizes marked, no SSSR entry */
+    char big[AS_RING_SEARCH_MAX + 16];
+    size_t k = 0;
+    big[k++] = 'C';
+    big[k++] = '1';
+    for (int j = 0; j < AS_RING_SEARCH_MAX; j++)
+        big[k++] = 'C';
+    big[k++] = '1';
+    big[k] = '\0';
+    as_mol *m = parse_ok(big);
+    assert_int_equal(m->nrings, 0);
+    assert_int_equal(m->atoms[0].ring_size, AS_RING_SEARCH_MAX + 1);
+    assert_int_equal(m->bonds[m->nbonds - 1].ring_size, AS_RING_SEARCH_MAX + 1);
+    as_mol_free(m);
+    big[k - 2] = '1'; /* exactly AS_RING_SEARCH_MAX atoms */
+    big[k - 1] = '\0';
+    m = parse_ok(big);
+    assert_int_equal(m->nrings, 1);
+    assert_int_equal(m->atoms[5].ring_size, AS_RING_SEARCH_MAX);
     as_mol_free(m);
 }
 
@@ -131,6 +190,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(perceive_should_give_default_valence_hydrogens),
         cmocka_unit_test(perceive_should_find_sssr_and_ring_sizes),
+        cmocka_unit_test(perceive_should_list_rings_in_a_fixed_order),
         cmocka_unit_test(perceive_should_make_kekule_benzene_aromatic),
         cmocka_unit_test(perceive_should_drop_stereo_that_cannot_be_real),
         cmocka_unit_test(perceive_should_report_the_failed_pass),
