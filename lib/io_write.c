@@ -103,7 +103,7 @@ static void kv_text(const as_kv *kv, char num[40], const char **p, size_t *n)
         break;
     case AS_KV_REAL:
         if (isfinite(kv->d))
-            snprintf(num, 40, "%.6g", kv->d);
+            as_fmt_g6(num, 40, kv->d);
         else
             num[0] = '\0';
         *p = num;
@@ -407,7 +407,7 @@ static as_status json_value(as_writer *w, const as_kv *kv, as_error *err)
         break;
     case AS_KV_REAL:
         if (isfinite(kv->d))
-            snprintf(num, sizeof num, "%.6g", kv->d);
+            as_fmt_g6(num, sizeof num, kv->d);
         else
             strcpy(num, "null");
         bad = as_io_buf_put(b, num, strlen(num));
