@@ -456,11 +456,7 @@ out:
 
 static as_status pass_rings(as_mol *m, as_error *err)
 {
-    free(m->ring_start);
-    free(m->ring_atoms);
-    m->ring_start = NULL;
-    m->ring_atoms = NULL;
-    m->nrings = 0;
+    as_mol_set_rings(m, 0, NULL, NULL);
     for (int i = 0; i < m->natoms; i++)
         m->atoms[i].ring_size = 0;
     for (int i = 0; i < m->nbonds; i++)
@@ -577,16 +573,15 @@ static as_status pass_rings(as_mol *m, as_error *err)
         int total = nspool;
         for (int i = 0; i < ncx; i++)
             total += cx[i].size;
-        m->ring_start = malloc((size_t)(nr + 1) * sizeof(int));
-        m->ring_atoms = malloc((size_t)total * sizeof(int));
-        if (!m->ring_start || !m->ring_atoms) {
-            free(m->ring_start);
-            free(m->ring_atoms);
-            m->ring_start = NULL;
-            m->ring_atoms = NULL;
+        int *rstart = malloc((size_t)(nr + 1) * sizeof(int));
+        int *ratoms = malloc((size_t)total * sizeof(int));
+        if (!rstart || !ratoms) {
+            free(rstart);
+            free(ratoms);
             st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
             goto out;
         }
+        as_mol_set_rings(m, 0, rstart, ratoms);
         int i = 0, j = 0, used = 0;
         m->ring_start[0] = 0;
         while (i < nsimple || j < ncx) {
