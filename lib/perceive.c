@@ -733,9 +733,11 @@ static as_status pass_kekule(as_mol *m, as_error *err)
                                     "aromatic bond ':' between atoms that are not aromatic");
         return AS_OK;
     }
-    kek k = {m, calloc((size_t)m->natoms, 1), 0};
-    if (!k.need)
+    scratch sc;
+    if (scratch_init(&sc, al8((size_t)m->natoms)))
         return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    kek k = {m, scratch_take(&sc, (size_t)m->natoms), 0};
+    memset(k.need, 0, (size_t)m->natoms);
     int first_need = -1;
     for (int i = 0; i < m->natoms; i++) {
         if (!m->atoms[i].aromatic)
@@ -791,7 +793,7 @@ static as_status pass_kekule(as_mol *m, as_error *err)
             if (m->atoms[i].aromatic)
                 st = check_valence_atom(m, i, err);
     }
-    free(k.need);
+    scratch_done(&sc);
     return st;
 }
 
@@ -896,18 +898,21 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
     int n = m->natoms;
     int nr = m->nrings, total = m->ring_start[nr];
     as_status st = AS_OK;
-    int *sys = malloc((size_t)n * sizeof(int));
-    int *pi = malloc((size_t)n * sizeof(int));
-    char *ring_done = calloc((size_t)nr, 1);
-    int *buf = malloc((size_t)(n + 1) * sizeof(int));
-    char *seen = calloc((size_t)n, 1);
-    int *at_start = calloc((size_t)n + 1, sizeof(int)); /* rings through each atom (CSR) */
-    int *at_ring = malloc((size_t)(total ? total : 1) * sizeof(int));
-    int *mark = malloc((size_t)nr * sizeof(int));
-    if (!sys || !pi || !ring_done || !buf || !seen || !at_start || !at_ring || !mark) {
-        st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
-        goto out;
-    }
+    size_t ni = (size_t)n * sizeof(int), ni1 = ((size_t)n + 1) * sizeof(int);
+    size_t nt = (size_t)(total ? total : 1) * sizeof(int), nri = (size_t)nr * sizeof(int);
+    scratch sc;
+    if (scratch_init(&sc, 2 * al8(ni) + al8((size_t)nr) + 2 * al8(ni1) + al8((size_t)n) +
+                              al8(nt) + al8(nri)))
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    int *sys = scratch_take(&sc, ni), *pi = scratch_take(&sc, ni);
+    char *ring_done = scratch_take(&sc, (size_t)nr);
+    int *buf = scratch_take(&sc, ni1);
+    char *seen = scratch_take(&sc, (size_t)n);
+    int *at_start = scratch_take(&sc, ni1); /* rings through each atom (CSR) */
+    int *at_ring = scratch_take(&sc, nt), *mark = scratch_take(&sc, nri);
+    memset(ring_done, 0, (size_t)nr);
+    memset(seen, 0, (size_t)n);
+    memset(at_start, 0, ni1);
     for (int i = 0; i < n; i++)
         sys[i] = i;
     for (int b = 0; b < m->nbonds; b++)
@@ -983,15 +988,7 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
                 m->bonds[b].aromatic = 1;
         }
     }
-out:
-    free(sys);
-    free(pi);
-    free(ring_done);
-    free(buf);
-    free(seen);
-    free(at_start);
-    free(at_ring);
-    free(mark);
+    scratch_done(&sc);
     return st;
 }
 

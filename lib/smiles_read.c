@@ -46,7 +46,6 @@ typedef struct parser {
     size_t pos;
     as_mol *m;
     as_error *err;
-    ring_open rings[N_RING_NUMBERS];
     int open_rings;
     branch_frame *stack;
     int depth, cap_depth;
@@ -58,8 +57,22 @@ typedef struct parser {
     long *bond_dir_off;   /* per bond: offset of the mark */
     int cap_bonds;
     void *side_heap;      /* the block of the five side tables when on the heap, else NULL */
+    uint64_t rings_seen[2]; /* bit n set: rings[n] holds data (else it is free, unset) */
+    /* Not cleared when a parse starts (the fields above are): */
+    ring_open rings[N_RING_NUMBERS];
     uint64_t side_local[768]; /* their block for ordinary molecules (up to about 80 atoms) */
 } parser;
+
+/* The ring-closure slot of number num, marked free the first time it is used. */
+static ring_open *ring_slot(parser *p, int num)
+{
+    uint64_t bit = (uint64_t)1 << (num % 64);
+    if (!(p->rings_seen[num / 64] & bit)) {
+        p->rings_seen[num / 64] |= bit;
+        p->rings[num].atom = -1;
+    }
+    return &p->rings[num];
+}
 
 static as_status fail(parser *p, as_status code, long offset, const char *fmt, const char *tok)
 {
@@ -656,7 +669,7 @@ static as_status parse_body(parser *p)
             if (prev < 0)
                 return fail(p, AS_ERR_SYNTAX, off, "ring bond number with no atom before it%s",
                             "");
-            ring_open *r = &p->rings[num];
+            ring_open *r = ring_slot(p, num);
             if (r->atom < 0) {
                 r->atom = prev;
                 r->order = pending_order;
@@ -788,7 +801,7 @@ static as_status parse_body(parser *p)
         long first = -1;
         int num = -1;
         for (int i = 0; i < N_RING_NUMBERS; i++)
-            if (p->rings[i].atom >= 0 && (first < 0 || p->rings[i].offset < first)) {
+            if (ring_slot(p, i)->atom >= 0 && (first < 0 || p->rings[i].offset < first)) {
                 first = p->rings[i].offset;
                 num = i;
             }
@@ -821,12 +834,10 @@ as_status as_smiles_read(const char *text, size_t len, const as_smiles_opts *opt
                                 "SMILES longer than the limit of %d bytes", AS_SMILES_MAX_LEN);
     }
     parser p;
-    memset(&p, 0, offsetof(parser, side_local)); /* the local block needs no clearing */
+    memset(&p, 0, offsetof(parser, rings)); /* rings and the local block need no clearing */
     p.s = text;
     p.len = len;
     p.err = err;
-    for (int i = 0; i < N_RING_NUMBERS; i++)
-        p.rings[i].atom = -1;
     int max_atoms, max_bonds;
     size_bounds(text, len, &max_atoms, &max_bonds);
     p.m = as_mol_new_sized(max_atoms, max_bonds);
