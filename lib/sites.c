@@ -277,6 +277,20 @@ static int classify_ring_subst(const as_mol *m, int r, int y)
     }
 }
 
+/* Copies at most maxn bytes of src (up to its NUL) into dst of cap bytes, truncating like
+ * snprintf("%.*s"); returns the bytes copied. */
+static size_t copy_trunc(char *dst, size_t cap, const char *src, size_t maxn)
+{
+    size_t n = strnlen(src, maxn);
+    if (cap == 0)
+        return 0;
+    if (n > cap - 1)
+        n = cap - 1;
+    memcpy(dst, src, n);
+    dst[n] = '\0';
+    return n;
+}
+
 /* Sums σ+ over the meta and para substituents of the aryl ring whose ipso atom is x,
  * writing a note like "p-OMe". Ortho substituents are not in the Brown–Okamoto scale and
  * are left out. */
@@ -298,9 +312,16 @@ static double aryl_sigma(const as_mol *m, int x, char *note, size_t cap)
                 continue;
             sum += para ? sigma_plus[s].para : sigma_plus[s].meta;
             size_t used = strlen(note);
-            if (used + 12 < cap)
-                snprintf(note + used, cap - used, "%s%s-%s", used ? "," : "", para ? "p" : "m",
-                         sigma_plus[s].name);
+            if (used + 12 < cap) {
+                char item[64];
+                size_t n = 0;
+                if (used)
+                    item[n++] = ',';
+                item[n++] = para ? 'p' : 'm';
+                item[n++] = '-';
+                n += copy_trunc(item + n, sizeof item - n, sigma_plus[s].name, (size_t)-1);
+                copy_trunc(note + used, cap - used, item, n);
+            }
         }
     }
     return sum;
@@ -612,14 +633,15 @@ static void classify_site(as_site *s)
         c = "tetrasubstituted";
         break;
     }
-    snprintf(s->cls, sizeof s->cls, "%s", c);
+    copy_trunc(s->cls, sizeof s->cls, c, (size_t)-1);
     if (s->n_subst == 1) {
         const as_site_end *sub = a->n_heavy ? a : b;
         if (sub->n_aryl == 1) {
-            if (sub->aryl_note[0] && !strchr(sub->aryl_note, ','))
-                snprintf(s->cls, sizeof s->cls, "styrene:%.39s", sub->aryl_note);
-            else
-                snprintf(s->cls, sizeof s->cls, "styrene");
+            copy_trunc(s->cls, sizeof s->cls, "styrene", (size_t)-1);
+            if (sub->aryl_note[0] && !strchr(sub->aryl_note, ',')) {
+                s->cls[7] = ':';
+                copy_trunc(s->cls + 8, sizeof s->cls - 8, sub->aryl_note, 39);
+            }
         }
     }
 }
