@@ -11,25 +11,23 @@
 
 /* ---------------------------------------------------------------- valence tables */
 
-/* Normal valences of the organic subset (OpenSMILES "implicit hydrogens" table). */
-static const struct {
-    int elem;
-    int v[3];
-} default_valences[] = {
-    {5, {3, 0, 0}},  {6, {4, 0, 0}}, {7, {3, 5, 0}},  {8, {2, 0, 0}},  {15, {3, 5, 0}},
-    {16, {2, 4, 6}}, {9, {1, 0, 0}}, {17, {1, 0, 0}}, {35, {1, 0, 0}}, {53, {1, 0, 0}},
+/* Normal valences of the organic subset by atomic number, ascending, 0-terminated (OpenSMILES
+ * "implicit hydrogens" table); elements without a row have none. */
+#define N_VALENCE_ROWS 54
+static const unsigned char default_valences[N_VALENCE_ROWS][4] = {
+    [5] = {3},        [6] = {4},  [7] = {3, 5},  [8] = {2},  [9] = {1},
+    [15] = {3, 5},    [16] = {2, 4, 6},          [17] = {1}, [35] = {1},
+    [53] = {1},
 };
 
 int as_default_valence(int elem, int used)
 {
-    for (size_t i = 0; i < sizeof default_valences / sizeof default_valences[0]; i++) {
-        if (default_valences[i].elem != elem)
-            continue;
-        for (int k = 0; k < 3 && default_valences[i].v[k]; k++)
-            if (default_valences[i].v[k] >= used)
-                return default_valences[i].v[k];
+    if (elem < 0 || elem >= N_VALENCE_ROWS)
         return -1;
-    }
+    const unsigned char *v = default_valences[elem];
+    for (int k = 0; k < 3 && v[k]; k++)
+        if (v[k] >= used)
+            return v[k];
     return -1;
 }
 
@@ -52,12 +50,6 @@ static int max_valence(int elem, int charge)
     }
 }
 
-/* Kekulé valence: bond orders with aromatic bonds counted as 1 (before kekulisation). */
-static int order_sum(const as_mol *m, int a)
-{
-    return as_mol_bond_order_sum(m, a);
-}
-
 /* ---------------------------------------------------------------- pass: hydrogens */
 
 static as_status pass_hydrogens(as_mol *m, as_error *err)
@@ -69,21 +61,25 @@ static as_status pass_hydrogens(as_mol *m, as_error *err)
             a->total_h = a->hcount;
             continue;
         }
-        if (a->elem == 0) {
-            a->total_h = 0;
-            continue;
+        a->total_h = 0;
+        if (a->elem <= 0 || a->elem >= N_VALENCE_ROWS || !default_valences[a->elem][0])
+            continue; /* '*' and elements outside the organic subset */
+        /* bond orders with aromatic bonds counted 1, and how many are aromatic */
+        int sum = 0, arom_bonds = 0;
+        for (int k = 0; k < a->degree; k++) {
+            int o = m->bonds[a->nbond[k]].order;
+            if (o == AS_BOND_AROMATIC) {
+                sum++;
+                arom_bonds++;
+            } else {
+                sum += o;
+            }
         }
-        int sum = order_sum(m, i);
         int v = as_default_valence(a->elem, sum);
-        if (v < 0) {
-            a->total_h = 0;
+        if (v < 0)
             continue;
-        }
         /* the aromatic pi contribution is subtracted only while the bonds are still written
          * aromatic; a molecule perceived before holds Kekulé orders that already count it */
-        int arom_bonds = 0;
-        for (int k = 0; k < a->degree; k++)
-            arom_bonds += m->bonds[a->nbond[k]].order == AS_BOND_AROMATIC;
         int h = v - sum - (a->aromatic && arom_bonds ? 1 : 0);
         a->total_h = h > 0 ? h : 0;
     }
