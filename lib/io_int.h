@@ -57,6 +57,8 @@ AS_INTERNAL int as_fmt_fixed(char *buf, size_t cap, double x, int prec);
 /* x as printf("%.6g", x) writes it in the C locale; as as_fmt_fixed. Fast for 1e-4 <= |x| <
  * 1e6 and 0 (else snprintf itself). */
 AS_INTERNAL int as_fmt_g6(char *buf, size_t cap, double x);
+/* v as printf("%lld", v) writes it, into buf of at least 21 bytes; returns the length. */
+AS_INTERNAL int as_fmt_ll(char *buf, long long v);
 /* vsnprintf with the same bytes in the C locale, done here for formats whose conversions are
  * all %s, %d, %.0f to %.3f and %%; any other format goes to vsnprintf whole. */
 AS_INTERNAL int as_fmt_v(char *buf, size_t cap, const char *fmt, va_list ap);

@@ -415,3 +415,23 @@ int as_fmt_v(char *buf, size_t cap, const char *fmt, va_list ap)
         buf[used < cap ? used : cap - 1] = '\0';
     return used > INT_MAX ? -1 : (int)used;
 }
+
+int as_fmt_ll(char *buf, long long v)
+{
+    char *p = buf;
+    unsigned long long u = (unsigned long long)v;
+    if (v < 0) {
+        *p++ = '-';
+        u = 0 - u;
+    }
+    char tmp[24];
+    int n = 0;
+    do {
+        tmp[n++] = (char)('0' + u % 10);
+        u /= 10;
+    } while (u);
+    while (n)
+        *p++ = tmp[--n];
+    *p = '\0';
+    return (int)(p - buf);
+}

@@ -98,7 +98,7 @@ static void kv_text(const as_kv *kv, char num[40], const char **p, size_t *n)
 {
     switch (kv->kind) {
     case AS_KV_INT:
-        snprintf(num, 40, "%lld", kv->i);
+        as_fmt_ll(num, kv->i);
         *p = num;
         break;
     case AS_KV_REAL:
@@ -418,7 +418,7 @@ static as_status json_value(as_writer *w, const as_kv *kv, as_error *err)
     int bad = 0;
     switch (kv->kind) {
     case AS_KV_INT:
-        snprintf(num, sizeof num, "%lld", kv->i);
+        as_fmt_ll(num, kv->i);
         bad = as_io_buf_put(b, num, strlen(num));
         break;
     case AS_KV_REAL:

@@ -124,12 +124,28 @@ static void numfmt_should_format_like_vsnprintf(void **state)
     }
 }
 
+static void numfmt_should_write_integers_like_printf(void **state)
+{
+    (void)state;
+    static const long long v[] = {0, 1, -1, 9, 10, -10, 99, 100, 12345, -987654321,
+                                  2147483647LL, -2147483648LL, 9223372036854775807LL,
+                                  -9223372036854775807LL - 1};
+    char want[32], got[32];
+    for (size_t i = 0; i < sizeof v / sizeof v[0]; i++) {
+        int wn = snprintf(want, sizeof want, "%lld", v[i]);
+        int gn = as_fmt_ll(got, v[i]);
+        assert_int_equal(wn, gn);
+        assert_string_equal(want, got);
+    }
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(numfmt_should_match_printf_on_edge_values),
         cmocka_unit_test(numfmt_should_match_printf_on_many_values),
         cmocka_unit_test(numfmt_should_format_like_vsnprintf),
+        cmocka_unit_test(numfmt_should_write_integers_like_printf),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
