@@ -179,6 +179,52 @@ static void scratch_done(scratch *s)
     free(s->heap);
 }
 
+/* ---------------------------------------------------------------- hydrogens + valence */
+
+/* The hydrogen and valence passes in one sweep (as_perceive runs it when both are asked
+ * for): one loop over each atom's bonds serves both. Hydrogens are set on every atom before
+ * the first over-valent atom is reported, as when the passes run one after the other. */
+static as_status pass_hydrogens_valence(as_mol *m, as_error *err)
+{
+    int bad = -1;
+    for (int i = 0; i < m->natoms; i++) {
+        as_atom *a = &m->atoms[i];
+        int sum = 0, arom_bonds = 0;
+        for (int k = 0; k < a->degree; k++) {
+            int o = m->bonds[a->nbond[k]].order;
+            if (o == AS_BOND_AROMATIC) {
+                sum++;
+                arom_bonds++;
+            } else {
+                sum += o;
+            }
+        }
+        if (a->hcount >= 0) {
+            a->total_h = a->hcount;
+        } else {
+            a->total_h = 0;
+            if (a->elem > 0 && a->elem < N_VALENCE_ROWS && default_valences[a->elem][0]) {
+                int v = as_default_valence(a->elem, sum);
+                int h = v - sum - (a->aromatic && arom_bonds ? 1 : 0);
+                if (v >= 0 && h > 0)
+                    a->total_h = h;
+            }
+        }
+        if (bad >= 0 || a->aromatic)
+            continue; /* aromatic atoms are checked after kekulisation */
+        int v = sum + a->total_h;
+        if ((a->elem == 17 || a->elem == 35 || a->elem == 53) && a->charge == 0 && !a->bracket) {
+            if (v > 7 || v % 2 == 0)
+                bad = i;
+        } else {
+            int maxv = max_valence(a->elem, a->charge);
+            if (maxv >= 0 && v > maxv)
+                bad = i;
+        }
+    }
+    return bad >= 0 ? check_valence_atom(m, bad, err) : AS_OK;
+}
+
 /* ---------------------------------------------------------------- pass: rings */
 
 /* How the ring pass works (the result is the same as running the full search on every ring
@@ -1086,7 +1132,18 @@ as_status as_perceive(as_mol *m, unsigned passes, unsigned *failed_pass, as_erro
     };
     if (failed_pass)
         *failed_pass = 0;
-    for (size_t i = 0; i < sizeof table / sizeof table[0]; i++) {
+    size_t first = 0;
+    if ((passes & (AS_PASS_HYDROGENS | AS_PASS_VALENCE)) ==
+        (AS_PASS_HYDROGENS | AS_PASS_VALENCE)) {
+        as_status st = pass_hydrogens_valence(m, err);
+        if (st != AS_OK) {
+            if (failed_pass)
+                *failed_pass = AS_PASS_VALENCE;
+            return st;
+        }
+        first = 2; /* table[0] and table[1] are done */
+    }
+    for (size_t i = first; i < sizeof table / sizeof table[0]; i++) {
         if (!(passes & table[i].bit))
             continue;
         as_status st = table[i].run(m, err);

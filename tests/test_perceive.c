@@ -185,10 +185,51 @@ static void perceive_should_flag_neutral_four_bonded_nitrogen(void **state)
     as_mol_free(m);
 }
 
+static void perceive_should_give_the_same_result_pass_by_pass(void **state)
+{
+    (void)state;
+    /* hydrogens and valence run as one sweep when both are asked for; one at a time must
+     * give the same H counts, the same refusal and the same message */
+    static const char *const smiles[] = {
+        "CC(=O)O", "C=CC(Cl)(Br)I", "c1ccccc1C(F)(F)F", "[NH4+]", "C[N+](C)(C)C", "N(=O)(=O)C",
+        "OCl(=O)(=O)=O", "ClCl=C", "C(C)(C)(C)(C)C", "FC=O=C", "[CH5]", "O=N(=O)c1ccccc1",
+        "[O-][N+](=O)C", "B(C)(C)C", "[B-](F)(F)(F)F", "C=C=C=C", "I(=O)(=O)C", "Br=C",
+        "CC(C)=CCCC(C)=CC=O", "[Hg](C)C", "*C=C", "C[S](=O)(=O)C", "S(=O)(=O)(=O)(=O)C",
+    };
+    for (size_t i = 0; i < sizeof smiles / sizeof smiles[0]; i++) {
+        as_mol *a = NULL, *b = NULL;
+        as_error ea, eb;
+        const char *s = smiles[i];
+        assert_int_equal(as_smiles_read(s, strlen(s), NULL, &a, &ea), AS_OK);
+        assert_int_equal(as_smiles_read(s, strlen(s), NULL, &b, &eb), AS_OK);
+        unsigned fa = 0, fb = 0;
+        as_status sa = as_perceive(a, AS_PASS_HYDROGENS | AS_PASS_VALENCE, &fa, &ea);
+        as_status sb = as_perceive(b, AS_PASS_HYDROGENS, &fb, &eb);
+        assert_int_equal(sb, AS_OK);
+        sb = as_perceive(b, AS_PASS_VALENCE, &fb, &eb);
+        if (sa != sb)
+            fail_msg("%s: status %d together, %d one by one", s, sa, sb);
+        for (int k = 0; k < a->natoms; k++)
+            if (a->atoms[k].total_h != b->atoms[k].total_h)
+                fail_msg("%s: atom %d has %d H together, %d one by one", s, k + 1,
+                         a->atoms[k].total_h, b->atoms[k].total_h);
+        if (sa != AS_OK) {
+            assert_int_equal(fa, AS_PASS_VALENCE);
+            assert_int_equal(fb, AS_PASS_VALENCE);
+            assert_string_equal(ea.msg, eb.msg);
+            assert_int_equal(ea.offset, eb.offset);
+            assert_int_equal(ea.atom, eb.atom);
+        }
+        as_mol_free(a);
+        as_mol_free(b);
+    }
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(perceive_should_give_default_valence_hydrogens),
+        cmocka_unit_test(perceive_should_give_the_same_result_pass_by_pass),
         cmocka_unit_test(perceive_should_find_sssr_and_ring_sizes),
         cmocka_unit_test(perceive_should_list_rings_in_a_fixed_order),
         cmocka_unit_test(perceive_should_make_kekule_benzene_aromatic),
