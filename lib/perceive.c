@@ -297,6 +297,64 @@ static int find_ring_bonds(const as_mol *m, char *ringb, int *disc, int *low, in
     return ncomp;
 }
 
+/* The common case without bridge finding: strip atoms of degree 0 or 1 until none is left
+ * (the 2-core). When every connected piece of the core is a single cycle (as many bonds as
+ * atoms), those cycles are the ring systems and the core bonds the ring bonds: ringb, sys
+ * (-1 outside rings), cyc (1 per system) and *nsys are filled and the number of core atoms
+ * returned (0: acyclic). Returns -1 when a piece holds more than one cycle (fused, bridged
+ * or spiro rings, or rings joined by a chain): the caller then does the full analysis. deg
+ * and queue are natoms ints of scratch. */
+static int prune_to_core(const as_mol *m, char *ringb, int *sys, int *cyc, int *nsys, int *deg,
+                         int *queue)
+{
+    int n = m->natoms, head = 0, tail = 0, ncore = n;
+    for (int i = 0; i < n; i++) {
+        deg[i] = m->atoms[i].degree;
+        sys[i] = -1;
+        if (deg[i] <= 1)
+            queue[tail++] = i;
+    }
+    while (head < tail) {
+        int x = queue[head++];
+        deg[x] = -1; /* removed */
+        ncore--;
+        const as_atom *a = &m->atoms[x];
+        for (int k = 0; k < a->degree; k++) {
+            int y = a->nbr[k];
+            if (deg[y] > 0 && --deg[y] == 1)
+                queue[tail++] = y;
+        }
+    }
+    *nsys = 0;
+    if (ncore == 0)
+        return 0;
+    /* pieces of the core: a single cycle has only atoms of core degree 2 */
+    for (int i = 0; i < n; i++)
+        if (deg[i] > 2)
+            return -1;
+    for (int s = 0; s < n; s++) {
+        if (deg[s] < 0 || sys[s] >= 0)
+            continue;
+        int top = 0;
+        queue[top++] = s;
+        sys[s] = *nsys;
+        while (top) {
+            const as_atom *a = &m->atoms[queue[--top]];
+            for (int k = 0; k < a->degree; k++) {
+                int y = a->nbr[k];
+                if (deg[y] >= 0 && sys[y] < 0) {
+                    sys[y] = *nsys;
+                    queue[top++] = y;
+                }
+            }
+        }
+        cyc[(*nsys)++] = 1;
+    }
+    for (int b = 0; b < m->nbonds; b++)
+        ringb[b] = deg[m->bonds[b].a] >= 0 && deg[m->bonds[b].b] >= 0;
+    return ncore;
+}
+
 /* Inserts set into the GF(2) basis when independent; returns 1 when added. */
 static int basis_add(ring_work *w, uint64_t *set)
 {
@@ -520,12 +578,18 @@ static as_status pass_rings(as_mol *m, as_error *err)
     cand *cx = NULL;
     int *cxpool = NULL, ncx = 0;
 
+    int nsys = 0, target_cx = 0;
+    int core = prune_to_core(m, ringb, sys, cyc, &nsys, disc, stack);
+    if (core == 0)
+        goto out; /* acyclic */
+    if (core > 0)
+        goto single_rings; /* every ring system is one ring */
+
     int ncomp = find_ring_bonds(m, ringb, disc, low, parent_bond, iter, stack);
     if (m->nbonds - m->natoms + ncomp <= 0)
         goto out; /* acyclic */
 
     /* ring systems and their cyclomatic numbers (ring bonds - atoms + 1) */
-    int nsys = 0, target_cx = 0;
     for (int i = 0; i < n; i++)
         sys[i] = -1;
     for (int s = 0; s < n; s++) {
@@ -559,6 +623,7 @@ static as_status pass_rings(as_mol *m, as_error *err)
         nsys++;
     }
 
+single_rings:
     /* single rings: walked from atom a of their lowest-numbered bond, away from atom b */
     int nsimple = 0, nspool = 0;
     for (int b = 0; b < m->nbonds; b++) {
