@@ -195,6 +195,7 @@ as_mol *as_mol_copy(const as_mol *m)
     c->nrings = m->nrings;
     c->title = title;
     c->perceived = m->perceived;
+    c->rings_known = m->rings_known;
     return c;
 }
 
@@ -265,6 +266,8 @@ int as_mol_add_bond(as_mol *m, int a, int b, int order)
         return -1;
     if (grow(m, IN_BONDS, (void **)&m->bonds, &m->cap_bonds, m->nbonds + 1, sizeof(as_bond)))
         return -1;
+    if (m->atoms[a].degree && m->atoms[b].degree)
+        m->rings_known = 0; /* may close a ring; a bond to a bare atom cannot */
     int idx = m->nbonds++;
     as_bond *bd = &m->bonds[idx];
     memset(bd, 0, sizeof *bd);
@@ -361,6 +364,8 @@ as_status as_mol_remove_bond(as_mol *m, int b)
     if (b < 0 || b >= m->nbonds)
         return AS_ERR_ARG;
     as_bond bd = m->bonds[b];
+    if (bd.ring_size)
+        m->rings_known = 0; /* opens a ring; the other bonds keep their relative order */
     unlink_nbr(&m->atoms[bd.a], bd.b);
     unlink_nbr(&m->atoms[bd.b], bd.a);
     int d = as_mol_find_dbstereo(m, b);
@@ -391,6 +396,7 @@ as_status as_mol_remove_atom(as_mol *m, int a)
     if (a < 0 || a >= m->natoms)
         return AS_ERR_ARG;
     int was_h = m->atoms[a].elem == 1;
+    m->rings_known = 0; /* the ring list names atoms by index */
     while (m->atoms[a].degree > 0) {
         as_status s = as_mol_remove_bond(m, m->atoms[a].nbond[0]);
         if (s != AS_OK)
@@ -537,6 +543,14 @@ fail:
 int as_mol_append(as_mol *dst, const as_mol *src)
 {
     int off = dst->natoms;
+    /* the copied atoms and bonds carry src's ring sizes; the bonds themselves are judged one
+     * by one in as_mol_add_bond */
+    for (int i = 0; i < src->natoms && dst->rings_known; i++)
+        if (src->atoms[i].ring_size)
+            dst->rings_known = 0;
+    for (int i = 0; i < src->nbonds && dst->rings_known; i++)
+        if (src->bonds[i].ring_size)
+            dst->rings_known = 0;
     for (int i = 0; i < src->natoms; i++) {
         int k = as_mol_add_atom(dst, src->atoms[i].elem);
         if (k < 0)

@@ -297,6 +297,8 @@ static int find_ring_bonds(const as_mol *m, char *ringb, int *disc, int *low, in
     return ncomp;
 }
 
+static as_status find_rings(as_mol *m, as_error *err);
+
 /* The common case without bridge finding: strip atoms of degree 0 or 1 until none is left
  * (the 2-core). When every connected piece of the core is a single cycle (as many bonds as
  * atoms), those cycles are the ring systems and the core bonds the ring bonds: ringb, sys
@@ -555,6 +557,15 @@ out:
 }
 
 static as_status pass_rings(as_mol *m, as_error *err)
+{
+    if (m->rings_known)
+        return AS_OK; /* no edit since the last search could change a ring */
+    as_status st = find_rings(m, err);
+    m->rings_known = st == AS_OK;
+    return st;
+}
+
+static as_status find_rings(as_mol *m, as_error *err)
 {
     as_mol_set_rings(m, 0, NULL, NULL);
     for (int i = 0; i < m->natoms; i++)

@@ -225,6 +225,71 @@ static void perceive_should_give_the_same_result_pass_by_pass(void **state)
     }
 }
 
+/* Perceives m as it is and a copy with the ring data forgotten; fails when they differ. */
+static void rings_match_fresh_search(as_mol *m, const char *what)
+{
+    as_mol *c = as_mol_copy(m);
+    assert_non_null(c);
+    c->rings_known = 0;
+    as_error err;
+    assert_int_equal(as_perceive(m, AS_PASS_ALL, NULL, &err), AS_OK);
+    assert_int_equal(as_perceive(c, AS_PASS_ALL, NULL, &err), AS_OK);
+    char a[512], b[512];
+    ring_list(m, a, sizeof a);
+    ring_list(c, b, sizeof b);
+    if (strcmp(a, b) != 0)
+        fail_msg("%s: rings %s kept, %s searched", what, a, b);
+    for (int i = 0; i < m->natoms; i++)
+        if (m->atoms[i].ring_size != c->atoms[i].ring_size ||
+            m->atoms[i].aromatic != c->atoms[i].aromatic)
+            fail_msg("%s: atom %d differs", what, i + 1);
+    for (int i = 0; i < m->nbonds; i++)
+        if (m->bonds[i].ring_size != c->bonds[i].ring_size)
+            fail_msg("%s: bond %d differs", what, i + 1);
+    as_mol_free(c);
+}
+
+static void perceive_should_keep_rings_only_while_no_edit_can_change_them(void **state)
+{
+    (void)state;
+    as_mol *m = parse_ok("C=CCc1ccccc1C1CCCCC1");
+    assert_int_equal(m->rings_known, 1);
+    int before = m->nrings;
+    /* a new atom, a bond to it, a bond order change: kept */
+    int x = as_mol_add_atom(m, 35);
+    assert_true(as_mol_add_bond(m, 1, x, AS_BOND_SINGLE) >= 0);
+    as_mol_set_bond_order(m, as_mol_bond_between(m, 0, 1), AS_BOND_SINGLE);
+    assert_int_equal(m->rings_known, 1);
+    rings_match_fresh_search(m, "pendant Br");
+    assert_int_equal(m->nrings, before);
+    /* removing a chain bond: kept (the bonds after it move down in order) */
+    assert_int_equal(as_mol_remove_bond(m, as_mol_bond_between(m, 1, x)), AS_OK);
+    assert_int_equal(m->rings_known, 1);
+    rings_match_fresh_search(m, "chain bond removed");
+    /* a bond between two atoms that have bonds: may close a ring, forgotten */
+    assert_true(as_mol_add_bond(m, 0, 2, AS_BOND_SINGLE) >= 0);
+    assert_int_equal(m->rings_known, 0);
+    rings_match_fresh_search(m, "cyclopropane closed");
+    assert_int_equal(m->nrings, before + 1);
+    /* removing a ring bond: forgotten */
+    assert_int_equal(as_mol_remove_bond(m, as_mol_bond_between(m, 0, 2)), AS_OK);
+    assert_int_equal(m->rings_known, 0);
+    rings_match_fresh_search(m, "cyclopropane opened");
+    assert_int_equal(m->nrings, before);
+    /* appending a perceived ring: forgotten */
+    as_mol *ring = parse_ok("C1CC1");
+    assert_true(as_mol_append(m, ring) >= 0);
+    assert_int_equal(m->rings_known, 0);
+    rings_match_fresh_search(m, "cyclopropane appended");
+    assert_int_equal(m->nrings, before + 1);
+    /* removing an atom renumbers the ring list: forgotten */
+    assert_int_equal(as_mol_remove_atom(m, 0), AS_OK);
+    assert_int_equal(m->rings_known, 0);
+    rings_match_fresh_search(m, "atom removed");
+    as_mol_free(ring);
+    as_mol_free(m);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -232,6 +297,7 @@ int main(void)
         cmocka_unit_test(perceive_should_give_the_same_result_pass_by_pass),
         cmocka_unit_test(perceive_should_find_sssr_and_ring_sizes),
         cmocka_unit_test(perceive_should_list_rings_in_a_fixed_order),
+        cmocka_unit_test(perceive_should_keep_rings_only_while_no_edit_can_change_them),
         cmocka_unit_test(perceive_should_make_kekule_benzene_aromatic),
         cmocka_unit_test(perceive_should_drop_stereo_that_cannot_be_real),
         cmocka_unit_test(perceive_should_report_the_failed_pass),

@@ -90,6 +90,12 @@ typedef struct as_mol {
     /* Bookkeeping of mol.c, never to be set by callers: which of the arrays above share the
      * molecule's own allocation (as_mol_new_sized, as_mol_copy) instead of one of their own. */
     unsigned inline_arrays;
+    /* 1 while the ring data (ring_size of atoms and bonds, the ring list) is that of the
+     * current graph: set by the ring pass of as_perceive, which then skips the search; kept
+     * by edits that cannot change ring membership (bond orders, new atoms, a bond to an atom
+     * without bonds, removing a bond that is in no ring), cleared by every other edit through
+     * the functions below. Code that rewires atoms or bonds by hand must set it to 0. */
+    int rings_known;
 } as_mol;
 
 /* Returns new empty molecule, or NULL when out of memory; caller frees with as_mol_free. */
