@@ -454,7 +454,8 @@ int as_mol_components(const as_mol *m, int *comp)
 {
     if (m->natoms == 0)
         return 0;
-    int *stack = malloc((size_t)m->natoms * sizeof(int));
+    int local[256];
+    int *stack = m->natoms <= 256 ? local : malloc((size_t)m->natoms * sizeof(int));
     if (!stack)
         return -1;
     for (int i = 0; i < m->natoms; i++)
@@ -478,7 +479,8 @@ int as_mol_components(const as_mol *m, int *comp)
         }
         n++;
     }
-    free(stack);
+    if (stack != local)
+        free(stack);
     return n;
 }
 
