@@ -139,27 +139,26 @@ static int classify_nbr(const as_mol *m, int c, int x, int sat)
 {
     const as_atom *a = &m->atoms[x];
     switch (a->elem) {
-    case 6:
+    case 6: {
         if (a->aromatic)
             return NB_ARYL;
-        if (count_bonded(m, x, 2, 8) || count_bonded(m, x, 2, 16) || count_bonded(m, x, 2, 7))
-            return NB_CO;
-        if (count_bonded(m, x, 3, 7))
-            return NB_CN;
-        if (count_elem(m, x, 9) >= 2)
-            return NB_CF;
-        if (x != sat) {
-            const as_atom *xa = &m->atoms[x];
-            for (int i = 0; i < xa->degree; i++) {
-                int y = xa->nbr[i];
-                const as_bond *b = &m->bonds[xa->nbond[i]];
-                if (y != c && b->order == 2 && !b->aromatic && m->atoms[y].elem == 6)
-                    return NB_VINYL;
-                if (y != c && b->order == 3 && m->atoms[y].elem == 6)
-                    return NB_VINYL;
-            }
+        /* one pass over x's bonds; the tests keep their order of precedence: C=O/C=S/C=N,
+         * then C#N, then CF2/CF3, then a C=C or C#C away from c (not for the carbon sat) */
+        int co = 0, cn = 0, nf = 0, vinyl = 0;
+        for (int i = 0; i < a->degree; i++) {
+            int y = a->nbr[i], ye = m->atoms[y].elem;
+            const as_bond *b = &m->bonds[a->nbond[i]];
+            nf += ye == 9;
+            if (!b->aromatic && b->order == 2 && (ye == 8 || ye == 16 || ye == 7))
+                co = 1;
+            if (!b->aromatic && b->order == 3 && ye == 7)
+                cn = 1;
+            if (x != sat && y != c && ye == 6 &&
+                ((b->order == 2 && !b->aromatic) || b->order == 3))
+                vinyl = 1;
         }
-        return NB_ALKYL;
+        return co ? NB_CO : cn ? NB_CN : nf >= 2 ? NB_CF : vinyl ? NB_VINYL : NB_ALKYL;
+    }
     case 7:
         if (count_elem(m, x, 8) >= 2)
             return NB_NO2;
