@@ -1029,8 +1029,6 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
     int *at_start = scratch_take(&sc, ni1); /* rings through each atom (CSR) */
     int *at_ring = scratch_take(&sc, nt), *mark = scratch_take(&sc, nri);
     memset(ring_done, 0, (size_t)nr);
-    memset(seen, 0, (size_t)n);
-    memset(at_start, 0, ni1);
     for (int i = 0; i < n; i++)
         sys[i] = i;
     for (int b = 0; b < m->nbonds; b++)
@@ -1049,48 +1047,52 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
         if (e - s <= 24 && ring_set_aromatic(m->ring_atoms + s, e - s, pi))
             ring_done[r] = 1;
     }
-    /* only rings that touch are paired */
-    for (int j = 0; j < total; j++)
-        at_start[m->ring_atoms[j] + 1]++;
-    for (int i = 0; i < n; i++)
-        at_start[i + 1] += at_start[i];
-    for (int r = 0; r < nr; r++)
-        for (int j = m->ring_start[r]; j < m->ring_start[r + 1]; j++)
-            at_ring[at_start[m->ring_atoms[j]]++] = r;
-    for (int i = n; i > 0; i--)
-        at_start[i] = at_start[i - 1];
-    at_start[0] = 0;
-    for (int r = 0; r < nr; r++)
-        mark[r] = -1;
-    for (int r1 = 0; r1 < nr; r1++) {
-        int s1 = m->ring_start[r1], e1 = m->ring_start[r1 + 1];
-        for (int j1 = s1; j1 < e1; j1++) {
-            int x = m->ring_atoms[j1];
-            for (int q = at_start[x]; q < at_start[x + 1]; q++) {
-                int r2 = at_ring[q];
-                if (r2 <= r1 || mark[r2] == r1)
-                    continue;
-                mark[r2] = r1;
-                if (ring_done[r1] && ring_done[r2])
-                    continue;
-                int s2 = m->ring_start[r2], e2 = m->ring_start[r2 + 1];
-                if (e1 - s1 + e2 - s2 > 24)
-                    continue;
-                int shared = 0, k = 0;
-                for (int j = s1; j < e1; j++) {
-                    buf[k++] = m->ring_atoms[j];
-                    seen[m->ring_atoms[j]] = 1;
-                }
-                for (int j = s2; j < e2; j++) {
-                    if (seen[m->ring_atoms[j]])
-                        shared++;
-                    else
+    /* only rings that touch are paired (a molecule with one ring has none) */
+    if (nr > 1) {
+        memset(seen, 0, (size_t)n);
+        memset(at_start, 0, ni1);
+        for (int j = 0; j < total; j++)
+            at_start[m->ring_atoms[j] + 1]++;
+        for (int i = 0; i < n; i++)
+            at_start[i + 1] += at_start[i];
+        for (int r = 0; r < nr; r++)
+            for (int j = m->ring_start[r]; j < m->ring_start[r + 1]; j++)
+                at_ring[at_start[m->ring_atoms[j]]++] = r;
+        for (int i = n; i > 0; i--)
+            at_start[i] = at_start[i - 1];
+        at_start[0] = 0;
+        for (int r = 0; r < nr; r++)
+            mark[r] = -1;
+        for (int r1 = 0; r1 < nr; r1++) {
+            int s1 = m->ring_start[r1], e1 = m->ring_start[r1 + 1];
+            for (int j1 = s1; j1 < e1; j1++) {
+                int x = m->ring_atoms[j1];
+                for (int q = at_start[x]; q < at_start[x + 1]; q++) {
+                    int r2 = at_ring[q];
+                    if (r2 <= r1 || mark[r2] == r1)
+                        continue;
+                    mark[r2] = r1;
+                    if (ring_done[r1] && ring_done[r2])
+                        continue;
+                    int s2 = m->ring_start[r2], e2 = m->ring_start[r2 + 1];
+                    if (e1 - s1 + e2 - s2 > 24)
+                        continue;
+                    int shared = 0, k = 0;
+                    for (int j = s1; j < e1; j++) {
                         buf[k++] = m->ring_atoms[j];
+                        seen[m->ring_atoms[j]] = 1;
+                    }
+                    for (int j = s2; j < e2; j++) {
+                        if (seen[m->ring_atoms[j]])
+                            shared++;
+                        else
+                            buf[k++] = m->ring_atoms[j];
+                    }
+                    for (int j = s1; j < e1; j++)
+                        seen[m->ring_atoms[j]] = 0;
+                    if (shared == 2 && ring_set_aromatic(buf, k, pi))
+                        ring_done[r1] = ring_done[r2] = 1;
                 }
-                for (int j = s1; j < e1; j++)
-                    seen[m->ring_atoms[j]] = 0;
-                if (shared == 2 && ring_set_aromatic(buf, k, pi))
-                    ring_done[r1] = ring_done[r2] = 1;
             }
         }
     }
