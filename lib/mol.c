@@ -452,25 +452,29 @@ as_status as_mol_remove_atom(as_mol *m, int a)
 
 int as_mol_components(const as_mol *m, int *comp)
 {
-    if (m->natoms == 0)
+    int natoms = m->natoms;
+    if (natoms == 0)
         return 0;
     int local[256];
-    int *stack = m->natoms <= 256 ? local : malloc((size_t)m->natoms * sizeof(int));
+    int *stack = natoms <= 256 ? local : malloc((size_t)natoms * sizeof(int));
     if (!stack)
         return -1;
-    for (int i = 0; i < m->natoms; i++)
+    /* locals, so that the stores to comp need not reload the molecule's fields */
+    const as_atom *atoms = m->atoms;
+    for (int i = 0; i < natoms; i++)
         comp[i] = -1;
     int n = 0;
-    for (int s = 0; s < m->natoms; s++) {
+    for (int s = 0; s < natoms; s++) {
         if (comp[s] >= 0)
             continue;
         int top = 0;
         stack[top++] = s;
         comp[s] = n;
         while (top) {
-            int x = stack[--top];
-            for (int k = 0; k < m->atoms[x].degree; k++) {
-                int y = m->atoms[x].nbr[k];
+            const as_atom *x = &atoms[stack[--top]];
+            int deg = x->degree;
+            for (int k = 0; k < deg; k++) {
+                int y = x->nbr[k];
                 if (comp[y] < 0) {
                     comp[y] = n;
                     stack[top++] = y;
