@@ -774,6 +774,8 @@ typedef struct kek {
     as_mol *m;
     char *need;     /* atom still needs a double bond */
     long steps;
+    const int *cand; /* the atoms that needed one at the start, ascending */
+    int ncand;
 } kek;
 
 /* Picks a partner for the lowest-option atom, recursively. */
@@ -783,7 +785,8 @@ static int kek_solve(kek *k)
     if (++k->steps > 2000000)
         return -1;
     int best = -1, best_opts = 99;
-    for (int i = 0; i < m->natoms; i++) {
+    for (int c = 0; c < k->ncand; c++) {
+        int i = k->cand[c];
         if (!k->need[i])
             continue;
         int opts = 0;
@@ -852,9 +855,10 @@ static as_status pass_kekule(as_mol *m, as_error *err)
         return AS_OK;
     }
     scratch sc;
-    if (scratch_init(&sc, al8((size_t)m->natoms)))
+    if (scratch_init(&sc, al8((size_t)m->natoms) + al8((size_t)m->natoms * sizeof(int))))
         return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
-    kek k = {m, scratch_take(&sc, (size_t)m->natoms), 0};
+    int *needy = scratch_take(&sc, (size_t)m->natoms * sizeof(int));
+    kek k = {m, scratch_take(&sc, (size_t)m->natoms), 0, needy, 0};
     memset(k.need, 0, (size_t)m->natoms);
     int first_need = -1;
     for (int i = 0; i < m->natoms; i++) {
@@ -866,6 +870,7 @@ static as_status pass_kekule(as_mol *m, as_error *err)
                 has_arom_bond = 1;
         if (has_arom_bond && needs_double(m, i)) {
             k.need[i] = 1;
+            needy[k.ncand++] = i;
             if (first_need < 0)
                 first_need = i;
         }
