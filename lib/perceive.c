@@ -593,48 +593,46 @@ static as_status find_rings(as_mol *m, as_error *err)
     int core = prune_to_core(m, ringb, sys, cyc, &nsys, disc, stack);
     if (core == 0)
         goto out; /* acyclic */
-    if (core > 0)
-        goto single_rings; /* every ring system is one ring */
+    if (core < 0) { /* more than one ring in a system, or rings joined by chains */
+        int ncomp = find_ring_bonds(m, ringb, disc, low, parent_bond, iter, stack);
+        if (m->nbonds - m->natoms + ncomp <= 0)
+            goto out; /* acyclic */
 
-    int ncomp = find_ring_bonds(m, ringb, disc, low, parent_bond, iter, stack);
-    if (m->nbonds - m->natoms + ncomp <= 0)
-        goto out; /* acyclic */
-
-    /* ring systems and their cyclomatic numbers (ring bonds - atoms + 1) */
-    for (int i = 0; i < n; i++)
-        sys[i] = -1;
-    for (int s = 0; s < n; s++) {
-        if (sys[s] >= 0)
-            continue;
-        int ring_atom = 0;
-        for (int k = 0; k < m->atoms[s].degree && !ring_atom; k++)
-            ring_atom = ringb[m->atoms[s].nbond[k]];
-        if (!ring_atom)
-            continue;
-        int top = 0, na = 0, ends = 0;
-        stack[top++] = s;
-        sys[s] = nsys;
-        while (top) {
-            int x = stack[--top];
-            na++;
-            for (int k = 0; k < m->atoms[x].degree; k++) {
-                if (!ringb[m->atoms[x].nbond[k]])
-                    continue;
-                ends++;
-                int y = m->atoms[x].nbr[k];
-                if (sys[y] < 0) {
-                    sys[y] = nsys;
-                    stack[top++] = y;
+        /* ring systems and their cyclomatic numbers (ring bonds - atoms + 1) */
+        for (int i = 0; i < n; i++)
+            sys[i] = -1;
+        for (int s = 0; s < n; s++) {
+            if (sys[s] >= 0)
+                continue;
+            int ring_atom = 0;
+            for (int k = 0; k < m->atoms[s].degree && !ring_atom; k++)
+                ring_atom = ringb[m->atoms[s].nbond[k]];
+            if (!ring_atom)
+                continue;
+            int top = 0, na = 0, ends = 0;
+            stack[top++] = s;
+            sys[s] = nsys;
+            while (top) {
+                int x = stack[--top];
+                na++;
+                for (int k = 0; k < m->atoms[x].degree; k++) {
+                    if (!ringb[m->atoms[x].nbond[k]])
+                        continue;
+                    ends++;
+                    int y = m->atoms[x].nbr[k];
+                    if (sys[y] < 0) {
+                        sys[y] = nsys;
+                        stack[top++] = y;
+                    }
                 }
             }
+            cyc[nsys] = ends / 2 - na + 1;
+            if (cyc[nsys] > 1)
+                target_cx += cyc[nsys];
+            nsys++;
         }
-        cyc[nsys] = ends / 2 - na + 1;
-        if (cyc[nsys] > 1)
-            target_cx += cyc[nsys];
-        nsys++;
     }
 
-single_rings:
     /* single rings: walked from atom a of their lowest-numbered bond, away from atom b */
     int nsimple = 0, nspool = 0;
     for (int b = 0; b < m->nbonds; b++) {
