@@ -1,8 +1,10 @@
 /* io_int.h — helpers shared by the io readers, writers and output file (never installed).
- * Owns: growable byte buffers, UTF-8 checks, column-name matching. Must not: do I/O. */
+ * Owns: growable byte buffers, UTF-8 checks, column-name matching, number formatting.
+ * Must not: do I/O. */
 #ifndef ADDSITE_IO_INT_H
 #define ADDSITE_IO_INT_H
 
+#include <stdarg.h>
 #include <stddef.h>
 
 #include "addsite/io.h"
@@ -48,5 +50,17 @@ AS_INTERNAL int as_io_column_rank(const char *name, size_t len, as_io_role role)
 /* 1 when text (len bytes) reads as a reaction: a '>' outside brackets that is not the head of
  * a dative bond "->". */
 AS_INTERNAL int as_io_is_reaction(const char *text, size_t len);
+
+/* x as printf("%.*f", prec, x) writes it in the C locale, into buf of cap bytes; returns the
+ * length as snprintf does. Fast for prec 0..3 and |x| < 1e15 (else snprintf itself). */
+AS_INTERNAL int as_fmt_fixed(char *buf, size_t cap, double x, int prec);
+/* x as printf("%.6g", x) writes it in the C locale; as as_fmt_fixed. Fast for 1e-4 <= |x| <
+ * 1e6 and 0 (else snprintf itself). */
+AS_INTERNAL int as_fmt_g6(char *buf, size_t cap, double x);
+/* v as printf("%lld", v) writes it, into buf of at least 21 bytes; returns the length. */
+AS_INTERNAL int as_fmt_ll(char *buf, long long v);
+/* vsnprintf with the same bytes in the C locale, done here for formats whose conversions are
+ * all %s, %d, %.0f to %.3f and %%; any other format goes to vsnprintf whole. */
+AS_INTERNAL int as_fmt_v(char *buf, size_t cap, const char *fmt, va_list ap);
 
 #endif

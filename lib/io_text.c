@@ -3,6 +3,11 @@
 #include "addsite/io.h"
 #include "io_int.h"
 
+#include <limits.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdint.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -207,4 +212,226 @@ int as_io_is_reaction(const char *text, size_t len)
             return 1;
     }
     return 0;
+}
+
+/* ==== Numbers as text ======================================================================= */
+
+/* The hot output paths format a few numbers per record ("%.1f", "%.6g"); glibc's printf spends
+ * thousands of instructions on each. These give the same bytes as printf in the C locale for
+ * the ranges that occur (shares, energies, temperatures) and hand anything else to snprintf.
+ * Method: a double is m * 2^e exactly (m < 2^53); the wanted digits are round(m * 10^k / 2^-e)
+ * computed in 128-bit integers, ties to even like printf under the default rounding mode. */
+
+typedef unsigned __int128 u128;
+
+static const uint64_t pow10_u64[] = {1u, 10u, 100u, 1000u, 10000u, 100000u, 1000000u,
+                                     10000000u, 100000000u, 1000000000u};
+
+/* a = m * 2^-sh exactly for finite a > 0 below 2^60; returns 0, or -1 outside that range. */
+static int split_double(double a, uint64_t *m, int *sh)
+{
+    int e2;
+    double f = frexp(a, &e2); /* a = f * 2^e2, f in [0.5, 1) */
+    if (e2 > 60)
+        return -1;
+    *m = (uint64_t)ldexp(f, 53); /* exact: f has at most 53 significant bits */
+    *sh = 53 - e2;
+    return 0;
+}
+
+/* round(m * mult / 2^sh), ties to even; sh may be 0..127, m * mult < 2^127. */
+static uint64_t round_shift(uint64_t m, uint64_t mult, int sh, uint64_t *trunc)
+{
+    u128 t = (u128)m * mult;
+    if (sh <= 0) {
+        *trunc = (uint64_t)t;
+        return (uint64_t)t;
+    }
+    u128 q = t >> sh, r = t & (((u128)1 << sh) - 1), half = (u128)1 << (sh - 1);
+    *trunc = (uint64_t)q;
+    if (r > half || (r == half && (q & 1)))
+        q++;
+    return (uint64_t)q;
+}
+
+/* Writes the decimal digits of v (at least width, zero-padded) at p; returns the count. */
+static int put_digits(char *p, uint64_t v, int width)
+{
+    char tmp[24];
+    int n = 0;
+    do {
+        tmp[n++] = (char)('0' + v % 10);
+        v /= 10;
+    } while (v);
+    while (n < width)
+        tmp[n++] = '0';
+    for (int i = 0; i < n; i++)
+        p[i] = tmp[n - 1 - i];
+    return n;
+}
+
+int as_fmt_fixed(char *buf, size_t cap, double x, int prec)
+{
+    uint64_t m = 0, tr;
+    int sh = 0;
+    double a = fabs(x);
+    if (prec < 0 || prec > 3 || !isfinite(x) || a >= 1e15 || cap < 24 ||
+        (a != 0 && split_double(a, &m, &sh)))
+        return snprintf(buf, cap, "%.*f", prec, x);
+    uint64_t scale = pow10_u64[prec];
+    uint64_t q = 0;
+    if (a != 0)
+        q = sh >= 128 ? 0 : round_shift(m, scale, sh, &tr); /* below 2^-75: rounds to 0 */
+    char *p = buf;
+    if (signbit(x))
+        *p++ = '-';
+    p += put_digits(p, q / scale, 1);
+    if (prec > 0) {
+        *p++ = '.';
+        p += put_digits(p, q % scale, prec);
+    }
+    *p = '\0';
+    return (int)(p - buf);
+}
+
+int as_fmt_g6(char *buf, size_t cap, double x)
+{
+    uint64_t m = 0, q = 0, tr = 0;
+    int sh = 0, e10;
+    double a = fabs(x);
+    if (!isfinite(x) || cap < 24 || (a != 0 && (a < 1e-4 || a >= 1e6)))
+        return snprintf(buf, cap, "%.6g", x);
+    char *p = buf;
+    if (signbit(x))
+        *p++ = '-';
+    if (a == 0) {
+        *p++ = '0';
+        *p = '\0';
+        return (int)(p - buf);
+    }
+    split_double(a, &m, &sh); /* a < 1e6: in range, sh between 33 and 67 */
+    /* e10 = floor(log10(a)): the guess is corrected with exact integer truncations */
+    e10 = (int)floor(log10(a));
+    for (int tries = 0;; tries++) {
+        if (e10 < -4 || e10 > 5 || tries > 3)
+            return snprintf(buf, cap, "%.6g", x);
+        q = round_shift(m, pow10_u64[5 - e10], sh, &tr);
+        if (tr < 100000u)
+            e10--;
+        else if (tr >= 1000000u)
+            e10++;
+        else
+            break;
+    }
+    if (q == 1000000u) { /* 9.999995 -> 10.0000 */
+        q = 100000u;
+        e10++;
+    }
+    if (e10 >= 6) /* %g switches to the exponent form */
+        return snprintf(buf, cap, "%.6g", x);
+    /* fixed form with 5 - e10 decimals, trailing zeros dropped */
+    int dec = 5 - e10;
+    uint64_t ip = q / pow10_u64[dec], fp = q % pow10_u64[dec];
+    while (dec > 0 && fp % 10 == 0) {
+        fp /= 10;
+        dec--;
+    }
+    p += put_digits(p, ip, 1);
+    if (dec > 0) {
+        *p++ = '.';
+        p += put_digits(p, fp, dec);
+    }
+    *p = '\0';
+    return (int)(p - buf);
+}
+
+/* Appends n bytes of s at *used, writing only what fits below cap - 1. */
+static void fmt_put(char *buf, size_t cap, size_t *used, const char *s, size_t n)
+{
+    if (*used + 1 < cap) {
+        size_t room = cap - 1 - *used;
+        memcpy(buf + *used, s, n < room ? n : room);
+    }
+    *used += n;
+}
+
+/* 1 when every conversion in fmt is one as_fmt_v does itself. */
+static int fmt_simple(const char *fmt)
+{
+    for (const char *p = fmt; (p = strchr(p, '%')) != NULL;) {
+        p++;
+        if (*p == 's' || *p == 'd' || *p == '%')
+            p++;
+        else if (p[0] == '.' && p[1] >= '0' && p[1] <= '3' && p[2] == 'f')
+            p += 3;
+        else
+            return 0;
+    }
+    return 1;
+}
+
+int as_fmt_v(char *buf, size_t cap, const char *fmt, va_list ap)
+{
+    if (!fmt_simple(fmt))
+        return vsnprintf(buf, cap, fmt, ap);
+    size_t used = 0;
+    char num[512];
+    for (const char *p = fmt; *p;) {
+        const char *q = strchr(p, '%');
+        if (!q) {
+            fmt_put(buf, cap, &used, p, strlen(p));
+            break;
+        }
+        fmt_put(buf, cap, &used, p, (size_t)(q - p));
+        q++;
+        if (*q == '%') {
+            fmt_put(buf, cap, &used, "%", 1);
+            p = q + 1;
+        } else if (*q == 's') {
+            const char *s = va_arg(ap, const char *);
+            if (!s)
+                s = "(null)"; /* what glibc prints */
+            fmt_put(buf, cap, &used, s, strlen(s));
+            p = q + 1;
+        } else if (*q == 'd') {
+            long long v = va_arg(ap, int);
+            char *d = num;
+            if (v < 0) {
+                *d++ = '-';
+                v = -v;
+            }
+            d += put_digits(d, (uint64_t)v, 1);
+            fmt_put(buf, cap, &used, num, (size_t)(d - num));
+            p = q + 1;
+        } else { /* ".Nf" */
+            int n = as_fmt_fixed(num, sizeof num, va_arg(ap, double), q[1] - '0');
+            if (n < 0)
+                return n;
+            fmt_put(buf, cap, &used, num, (size_t)n < sizeof num ? (size_t)n : sizeof num - 1);
+            p = q + 3;
+        }
+    }
+    if (cap)
+        buf[used < cap ? used : cap - 1] = '\0';
+    return used > INT_MAX ? -1 : (int)used;
+}
+
+int as_fmt_ll(char *buf, long long v)
+{
+    char *p = buf;
+    unsigned long long u = (unsigned long long)v;
+    if (v < 0) {
+        *p++ = '-';
+        u = 0 - u;
+    }
+    char tmp[24];
+    int n = 0;
+    do {
+        tmp[n++] = (char)('0' + u % 10);
+        u /= 10;
+    } while (u);
+    while (n)
+        *p++ = tmp[--n];
+    *p = '\0';
+    return (int)(p - buf);
 }

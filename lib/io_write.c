@@ -98,12 +98,12 @@ static void kv_text(const as_kv *kv, char num[40], const char **p, size_t *n)
 {
     switch (kv->kind) {
     case AS_KV_INT:
-        snprintf(num, 40, "%lld", kv->i);
+        as_fmt_ll(num, kv->i);
         *p = num;
         break;
     case AS_KV_REAL:
         if (isfinite(kv->d))
-            snprintf(num, 40, "%.6g", kv->d);
+            as_fmt_g6(num, 40, kv->d);
         else
             num[0] = '\0';
         *p = num;
@@ -355,43 +355,59 @@ static as_status put_table(as_writer *w, const as_kv *fields, size_t nfields,
  * would write the same object (the output predates this writer and must not change): no
  * tree is built. Only AS_KV_JSON values go through cJSON, to be checked and re-printed. */
 
-/* Appends s (up to its NUL) as a JSON string: '"' '\\' and the controls \b \f \n \r \t
- * get their short escapes, other bytes below 0x20 \u00xx, everything else as it is. */
-static int json_put_string(as_io_buf *b, const char *s)
+/* Appends s[0..n) (no NUL inside) as a JSON string: '"' '\\' and the controls \b \f \n \r \t
+ * get their short escapes, other bytes below 0x20 \u00xx, everything else as it is. Room for
+ * the worst case is made once, then bytes go straight into the buffer. */
+static int json_put_mem(as_io_buf *b, const char *s, size_t n)
 {
     static const char hex[] = "0123456789abcdef";
-    if (as_io_buf_putc(b, '"') != 0)
+    if (n > ((size_t)-1 - 2) / 6 || as_io_buf_reserve(b, 6 * n + 2) != 0)
         return -1;
-    const char *run = s;
-    for (const unsigned char *u = (const unsigned char *)s;; u++) {
+    char *o = b->p + b->len;
+    *o++ = '"';
+    const unsigned char *u = (const unsigned char *)s, *end = u + n;
+    for (; u < end; u++) {
         unsigned c = *u;
-        if (c >= 0x20 && c != '"' && c != '\\')
+        if (c >= 0x20 && c != '"' && c != '\\') {
+            *o++ = (char)c;
             continue;
-        if (as_io_buf_put(b, run, (size_t)((const char *)u - run)) != 0)
-            return -1;
-        if (c == 0)
-            break;
-        char e[6] = {'\\', 0, '0', '0', 0, 0};
-        size_t k = 2;
-        switch (c) {
-        case '"': e[1] = '"'; break;
-        case '\\': e[1] = '\\'; break;
-        case '\b': e[1] = 'b'; break;
-        case '\f': e[1] = 'f'; break;
-        case '\n': e[1] = 'n'; break;
-        case '\r': e[1] = 'r'; break;
-        case '\t': e[1] = 't'; break;
-        default:
-            e[1] = 'u';
-            e[4] = hex[c >> 4];
-            e[5] = hex[c & 15];
-            k = 6;
         }
-        if (as_io_buf_put(b, e, k) != 0)
-            return -1;
-        run = (const char *)u + 1;
+        *o++ = '\\';
+        switch (c) {
+        case '"': *o++ = '"'; break;
+        case '\\': *o++ = '\\'; break;
+        case '\b': *o++ = 'b'; break;
+        case '\f': *o++ = 'f'; break;
+        case '\n': *o++ = 'n'; break;
+        case '\r': *o++ = 'r'; break;
+        case '\t': *o++ = 't'; break;
+        default:
+            *o++ = 'u';
+            *o++ = '0';
+            *o++ = '0';
+            *o++ = hex[c >> 4];
+            *o++ = hex[c & 15];
+        }
     }
-    return as_io_buf_putc(b, '"');
+    *o++ = '"';
+    b->len = (size_t)(o - b->p);
+    b->p[b->len] = '\0';
+    return 0;
+}
+
+static int json_put_string(as_io_buf *b, const char *s)
+{
+    return json_put_mem(b, s, strlen(s));
+}
+
+/* 1 when s[0..n) is plain ASCII without NUL: sanitise would copy it unchanged. */
+static int plain_ascii(const char *s, size_t n)
+{
+    const unsigned char *u = (const unsigned char *)s;
+    for (size_t i = 0; i < n; i++)
+        if (u[i] == 0 || u[i] >= 0x80)
+            return 0;
+    return 1;
 }
 
 /* Appends the value of one field. */
@@ -402,12 +418,12 @@ static as_status json_value(as_writer *w, const as_kv *kv, as_error *err)
     int bad = 0;
     switch (kv->kind) {
     case AS_KV_INT:
-        snprintf(num, sizeof num, "%lld", kv->i);
+        as_fmt_ll(num, kv->i);
         bad = as_io_buf_put(b, num, strlen(num));
         break;
     case AS_KV_REAL:
         if (isfinite(kv->d))
-            snprintf(num, sizeof num, "%.6g", kv->d);
+            as_fmt_g6(num, sizeof num, kv->d);
         else
             strcpy(num, "null");
         bad = as_io_buf_put(b, num, strlen(num));
@@ -448,9 +464,13 @@ static as_status json_value(as_writer *w, const as_kv *kv, as_error *err)
     default:
         if (!kv->text)
             bad = as_io_buf_put(b, "null", 4);
-        else
-            bad = sanitise(w, kv->text, kv->len ? kv->len : strlen(kv->text)) != 0 ||
-                  json_put_string(b, w->tmp.p) != 0;
+        else {
+            size_t n = kv->len ? kv->len : strlen(kv->text);
+            if (plain_ascii(kv->text, n))
+                bad = json_put_mem(b, kv->text, n) != 0;
+            else
+                bad = sanitise(w, kv->text, n) != 0 || json_put_string(b, w->tmp.p) != 0;
+        }
         break;
     }
     if (bad)

@@ -64,74 +64,161 @@ double as_element_mass(int elem)
 
 /* ---------------------------------------------------------------- lifetime */
 
+/* Arrays that may live inside the molecule's own block (as_mol.inline_arrays bits): such an
+ * array is never passed to realloc or free; growing it moves it to an allocation of its own.
+ * Copies and molecules read from SMILES then cost one malloc and one free instead of up to
+ * eight, and need no realloc while the reader adds atoms. */
+enum { IN_ATOMS = 1, IN_BONDS = 2, IN_TETRA = 4, IN_DBS = 8, IN_RSTART = 16, IN_RATOMS = 32 };
+
+static size_t round8(size_t n)
+{
+    return (n + 7) & ~(size_t)7;
+}
+
+/* One block: the molecule, then room for the given numbers of each record. */
+static as_mol *mol_block(int atoms, int bonds, int tetra, int dbs, int rstart, int ratoms)
+{
+    size_t sz = round8(sizeof(as_mol)), off[6];
+    const size_t n[6] = {(size_t)atoms * sizeof(as_atom), (size_t)bonds * sizeof(as_bond),
+                         (size_t)tetra * sizeof(as_tetra), (size_t)dbs * sizeof(as_dbstereo),
+                         (size_t)rstart * sizeof(int), (size_t)ratoms * sizeof(int)};
+    for (int i = 0; i < 6; i++) {
+        off[i] = sz;
+        sz += round8(n[i]);
+    }
+    unsigned char *blk = malloc(sz);
+    if (!blk)
+        return NULL;
+    as_mol *m = (as_mol *)blk;
+    memset(m, 0, sizeof *m);
+    if (atoms > 0) {
+        m->atoms = (as_atom *)(blk + off[0]);
+        m->cap_atoms = atoms;
+        m->inline_arrays |= IN_ATOMS;
+    }
+    if (bonds > 0) {
+        m->bonds = (as_bond *)(blk + off[1]);
+        m->cap_bonds = bonds;
+        m->inline_arrays |= IN_BONDS;
+    }
+    if (tetra > 0) {
+        m->tetra = (as_tetra *)(blk + off[2]);
+        m->cap_tetra = tetra;
+        m->inline_arrays |= IN_TETRA;
+    }
+    if (dbs > 0) {
+        m->dbs = (as_dbstereo *)(blk + off[3]);
+        m->cap_dbs = dbs;
+        m->inline_arrays |= IN_DBS;
+    }
+    if (rstart > 0) {
+        m->ring_start = (int *)(blk + off[4]);
+        m->inline_arrays |= IN_RSTART;
+    }
+    if (ratoms > 0) {
+        m->ring_atoms = (int *)(blk + off[5]);
+        m->inline_arrays |= IN_RATOMS;
+    }
+    return m;
+}
+
 as_mol *as_mol_new(void)
 {
     return calloc(1, sizeof(as_mol));
+}
+
+as_mol *as_mol_new_sized(int atoms, int bonds)
+{
+    return mol_block(atoms > 0 ? atoms : 0, bonds > 0 ? bonds : 0, 0, 0, 0, 0);
+}
+
+static void free_unless(void *p, unsigned inline_arrays, unsigned bit)
+{
+    if (!(inline_arrays & bit))
+        free(p);
 }
 
 void as_mol_free(as_mol *m)
 {
     if (!m)
         return;
-    free(m->atoms);
-    free(m->bonds);
-    free(m->tetra);
-    free(m->dbs);
+    unsigned in = m->inline_arrays;
+    free_unless(m->atoms, in, IN_ATOMS);
+    free_unless(m->bonds, in, IN_BONDS);
+    free_unless(m->tetra, in, IN_TETRA);
+    free_unless(m->dbs, in, IN_DBS);
+    free_unless(m->ring_start, in, IN_RSTART);
+    free_unless(m->ring_atoms, in, IN_RATOMS);
     free(m->title);
-    free(m->ring_start);
-    free(m->ring_atoms);
     free(m);
 }
 
-static void *dup_array(const void *src, size_t n, size_t size)
+void as_mol_set_rings(as_mol *m, int nrings, int *ring_start, int *ring_atoms)
 {
-    if (n == 0 || !src)
-        return NULL;
-    void *p = malloc(n * size);
-    if (p)
-        memcpy(p, src, n * size);
-    return p;
+    free_unless(m->ring_start, m->inline_arrays, IN_RSTART);
+    free_unless(m->ring_atoms, m->inline_arrays, IN_RATOMS);
+    m->inline_arrays &= ~(unsigned)(IN_RSTART | IN_RATOMS);
+    m->nrings = nrings;
+    m->ring_start = ring_start;
+    m->ring_atoms = ring_atoms;
 }
+
+/* Room kept in a copy for what the addition step appends (reagent atoms, stereo records). */
+#define COPY_SLACK 8
 
 as_mol *as_mol_copy(const as_mol *m)
 {
-    as_mol *c = as_mol_new();
+    int nring_atoms = m->nrings ? m->ring_start[m->nrings] : 0;
+    as_mol *c = mol_block(m->natoms + COPY_SLACK, m->nbonds + COPY_SLACK, m->ntetra + 2,
+                          m->ndbs + 2, m->nrings ? m->nrings + 1 : 0, nring_atoms);
     if (!c)
         return NULL;
-    *c = *m;
-    c->atoms = dup_array(m->atoms, (size_t)m->natoms, sizeof(as_atom));
-    c->bonds = dup_array(m->bonds, (size_t)m->nbonds, sizeof(as_bond));
-    c->tetra = dup_array(m->tetra, (size_t)m->ntetra, sizeof(as_tetra));
-    c->dbs = dup_array(m->dbs, (size_t)m->ndbs, sizeof(as_dbstereo));
-    c->cap_atoms = m->natoms;
-    c->cap_bonds = m->nbonds;
-    c->cap_tetra = m->ntetra;
-    c->cap_dbs = m->ndbs;
-    c->title = m->title ? strdup(m->title) : NULL;
-    c->ring_start = m->nrings ? dup_array(m->ring_start, (size_t)m->nrings + 1, sizeof(int)) : NULL;
-    c->ring_atoms = m->nrings ? dup_array(m->ring_atoms, (size_t)m->ring_start[m->nrings],
-                                          sizeof(int))
-                              : NULL;
-    if ((m->natoms && !c->atoms) || (m->nbonds && !c->bonds) || (m->ntetra && !c->tetra) ||
-        (m->ndbs && !c->dbs) || (m->title && !c->title) ||
-        (m->nrings && (!c->ring_start || !c->ring_atoms))) {
+    char *title = NULL;
+    if (m->title && !(title = strdup(m->title))) {
         as_mol_free(c);
         return NULL;
     }
+    memcpy(c->atoms, m->atoms, (size_t)m->natoms * sizeof(as_atom));
+    memcpy(c->bonds, m->bonds, (size_t)m->nbonds * sizeof(as_bond));
+    if (m->ntetra)
+        memcpy(c->tetra, m->tetra, (size_t)m->ntetra * sizeof(as_tetra));
+    if (m->ndbs)
+        memcpy(c->dbs, m->dbs, (size_t)m->ndbs * sizeof(as_dbstereo));
+    if (m->nrings) {
+        memcpy(c->ring_start, m->ring_start, (size_t)(m->nrings + 1) * sizeof(int));
+        memcpy(c->ring_atoms, m->ring_atoms, (size_t)nring_atoms * sizeof(int));
+    }
+    c->natoms = m->natoms;
+    c->nbonds = m->nbonds;
+    c->ntetra = m->ntetra;
+    c->ndbs = m->ndbs;
+    c->nrings = m->nrings;
+    c->title = title;
+    c->perceived = m->perceived;
+    c->rings_known = m->rings_known;
     return c;
 }
 
-/* Grows *arr (of *cap elements of size) to hold need; returns 0 on success. */
-static int grow(void **arr, int *cap, int need, size_t size)
+/* Grows *arr (of *cap elements of size) to hold need; returns 0 on success. An array inside
+ * the molecule's block moves to an allocation of its own. */
+static int grow(as_mol *m, unsigned bit, void **arr, int *cap, int need, size_t size)
 {
     if (need <= *cap)
         return 0;
     int ncap = *cap ? *cap * 2 : 16;
     while (ncap < need)
         ncap *= 2;
-    void *p = realloc(*arr, (size_t)ncap * size);
+    void *p;
+    if (m->inline_arrays & bit) {
+        p = malloc((size_t)ncap * size);
+        if (p && *cap)
+            memcpy(p, *arr, (size_t)*cap * size);
+    } else {
+        p = realloc(*arr, (size_t)ncap * size);
+    }
     if (!p)
         return -1;
+    m->inline_arrays &= ~bit;
     *arr = p;
     *cap = ncap;
     return 0;
@@ -146,7 +233,7 @@ static void invalidate(as_mol *m)
 
 int as_mol_add_atom(as_mol *m, int elem)
 {
-    if (grow((void **)&m->atoms, &m->cap_atoms, m->natoms + 1, sizeof(as_atom)))
+    if (grow(m, IN_ATOMS, (void **)&m->atoms, &m->cap_atoms, m->natoms + 1, sizeof(as_atom)))
         return -1;
     as_atom *a = &m->atoms[m->natoms];
     memset(a, 0, sizeof *a);
@@ -177,8 +264,10 @@ int as_mol_add_bond(as_mol *m, int a, int b, int order)
         return -1;
     if (m->atoms[a].degree >= AS_MAX_DEGREE || m->atoms[b].degree >= AS_MAX_DEGREE)
         return -1;
-    if (grow((void **)&m->bonds, &m->cap_bonds, m->nbonds + 1, sizeof(as_bond)))
+    if (grow(m, IN_BONDS, (void **)&m->bonds, &m->cap_bonds, m->nbonds + 1, sizeof(as_bond)))
         return -1;
+    if (m->atoms[a].degree && m->atoms[b].degree)
+        m->rings_known = 0; /* may close a ring; a bond to a bare atom cannot */
     int idx = m->nbonds++;
     as_bond *bd = &m->bonds[idx];
     memset(bd, 0, sizeof *bd);
@@ -196,7 +285,7 @@ int as_mol_add_bond(as_mol *m, int a, int b, int order)
 
 int as_mol_add_tetra(as_mol *m, const as_tetra *t)
 {
-    if (grow((void **)&m->tetra, &m->cap_tetra, m->ntetra + 1, sizeof(as_tetra)))
+    if (grow(m, IN_TETRA, (void **)&m->tetra, &m->cap_tetra, m->ntetra + 1, sizeof(as_tetra)))
         return -1;
     m->tetra[m->ntetra] = *t;
     return m->ntetra++;
@@ -204,7 +293,7 @@ int as_mol_add_tetra(as_mol *m, const as_tetra *t)
 
 int as_mol_add_dbstereo(as_mol *m, const as_dbstereo *d)
 {
-    if (grow((void **)&m->dbs, &m->cap_dbs, m->ndbs + 1, sizeof(as_dbstereo)))
+    if (grow(m, IN_DBS, (void **)&m->dbs, &m->cap_dbs, m->ndbs + 1, sizeof(as_dbstereo)))
         return -1;
     m->dbs[m->ndbs] = *d;
     return m->ndbs++;
@@ -275,6 +364,8 @@ as_status as_mol_remove_bond(as_mol *m, int b)
     if (b < 0 || b >= m->nbonds)
         return AS_ERR_ARG;
     as_bond bd = m->bonds[b];
+    if (bd.ring_size)
+        m->rings_known = 0; /* opens a ring; the other bonds keep their relative order */
     unlink_nbr(&m->atoms[bd.a], bd.b);
     unlink_nbr(&m->atoms[bd.b], bd.a);
     int d = as_mol_find_dbstereo(m, b);
@@ -305,6 +396,7 @@ as_status as_mol_remove_atom(as_mol *m, int a)
     if (a < 0 || a >= m->natoms)
         return AS_ERR_ARG;
     int was_h = m->atoms[a].elem == 1;
+    m->rings_known = 0; /* the ring list names atoms by index */
     while (m->atoms[a].degree > 0) {
         as_status s = as_mol_remove_bond(m, m->atoms[a].nbond[0]);
         if (s != AS_OK)
@@ -360,24 +452,29 @@ as_status as_mol_remove_atom(as_mol *m, int a)
 
 int as_mol_components(const as_mol *m, int *comp)
 {
-    if (m->natoms == 0)
+    int natoms = m->natoms;
+    if (natoms == 0)
         return 0;
-    int *stack = malloc((size_t)m->natoms * sizeof(int));
+    int local[256];
+    int *stack = natoms <= 256 ? local : malloc((size_t)natoms * sizeof(int));
     if (!stack)
         return -1;
-    for (int i = 0; i < m->natoms; i++)
+    /* locals, so that the stores to comp need not reload the molecule's fields */
+    const as_atom *atoms = m->atoms;
+    for (int i = 0; i < natoms; i++)
         comp[i] = -1;
     int n = 0;
-    for (int s = 0; s < m->natoms; s++) {
+    for (int s = 0; s < natoms; s++) {
         if (comp[s] >= 0)
             continue;
         int top = 0;
         stack[top++] = s;
         comp[s] = n;
         while (top) {
-            int x = stack[--top];
-            for (int k = 0; k < m->atoms[x].degree; k++) {
-                int y = m->atoms[x].nbr[k];
+            const as_atom *x = &atoms[stack[--top]];
+            int deg = x->degree;
+            for (int k = 0; k < deg; k++) {
+                int y = x->nbr[k];
                 if (comp[y] < 0) {
                     comp[y] = n;
                     stack[top++] = y;
@@ -386,7 +483,8 @@ int as_mol_components(const as_mol *m, int *comp)
         }
         n++;
     }
-    free(stack);
+    if (stack != local)
+        free(stack);
     return n;
 }
 
@@ -451,6 +549,14 @@ fail:
 int as_mol_append(as_mol *dst, const as_mol *src)
 {
     int off = dst->natoms;
+    /* the copied atoms and bonds carry src's ring sizes; the bonds themselves are judged one
+     * by one in as_mol_add_bond */
+    for (int i = 0; i < src->natoms && dst->rings_known; i++)
+        if (src->atoms[i].ring_size)
+            dst->rings_known = 0;
+    for (int i = 0; i < src->nbonds && dst->rings_known; i++)
+        if (src->bonds[i].ring_size)
+            dst->rings_known = 0;
     for (int i = 0; i < src->natoms; i++) {
         int k = as_mol_add_atom(dst, src->atoms[i].elem);
         if (k < 0)

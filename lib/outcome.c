@@ -9,6 +9,7 @@
  * 1,4-adduct) are split by the published figures in the tables below. */
 #include "addsite/outcome.h"
 #include "addsite/canon.h"
+#include "io_int.h"
 #include "status_int.h"
 
 #include <cjson/cJSON.h>
@@ -94,17 +95,24 @@ static char *xstrdup(const char *s)
     return p;
 }
 
+/* Formats once into a stack buffer (as_fmt_v: the %.1f of shares without printf's cost) and
+ * a second time only when the text is longer than that. */
 static char *vfmt(const char *fmt, va_list ap)
 {
+    char tmp[512];
     va_list cp;
     va_copy(cp, ap);
-    int n = vsnprintf(NULL, 0, fmt, cp);
+    int n = as_fmt_v(tmp, sizeof tmp, fmt, cp);
     va_end(cp);
     if (n < 0)
         return NULL;
     char *p = malloc((size_t)n + 1);
-    if (p)
-        vsnprintf(p, (size_t)n + 1, fmt, ap);
+    if (!p)
+        return NULL;
+    if ((size_t)n < sizeof tmp)
+        memcpy(p, tmp, (size_t)n + 1);
+    else
+        as_fmt_v(p, (size_t)n + 1, fmt, ap);
     return p;
 }
 

@@ -11,25 +11,23 @@
 
 /* ---------------------------------------------------------------- valence tables */
 
-/* Normal valences of the organic subset (OpenSMILES "implicit hydrogens" table). */
-static const struct {
-    int elem;
-    int v[3];
-} default_valences[] = {
-    {5, {3, 0, 0}},  {6, {4, 0, 0}}, {7, {3, 5, 0}},  {8, {2, 0, 0}},  {15, {3, 5, 0}},
-    {16, {2, 4, 6}}, {9, {1, 0, 0}}, {17, {1, 0, 0}}, {35, {1, 0, 0}}, {53, {1, 0, 0}},
+/* Normal valences of the organic subset by atomic number, ascending, 0-terminated (OpenSMILES
+ * "implicit hydrogens" table); elements without a row have none. */
+#define N_VALENCE_ROWS 54
+static const unsigned char default_valences[N_VALENCE_ROWS][4] = {
+    [5] = {3},        [6] = {4},  [7] = {3, 5},  [8] = {2},  [9] = {1},
+    [15] = {3, 5},    [16] = {2, 4, 6},          [17] = {1}, [35] = {1},
+    [53] = {1},
 };
 
 int as_default_valence(int elem, int used)
 {
-    for (size_t i = 0; i < sizeof default_valences / sizeof default_valences[0]; i++) {
-        if (default_valences[i].elem != elem)
-            continue;
-        for (int k = 0; k < 3 && default_valences[i].v[k]; k++)
-            if (default_valences[i].v[k] >= used)
-                return default_valences[i].v[k];
+    if (elem < 0 || elem >= N_VALENCE_ROWS)
         return -1;
-    }
+    const unsigned char *v = default_valences[elem];
+    for (int k = 0; k < 3 && v[k]; k++)
+        if (v[k] >= used)
+            return v[k];
     return -1;
 }
 
@@ -52,12 +50,6 @@ static int max_valence(int elem, int charge)
     }
 }
 
-/* Kekulé valence: bond orders with aromatic bonds counted as 1 (before kekulisation). */
-static int order_sum(const as_mol *m, int a)
-{
-    return as_mol_bond_order_sum(m, a);
-}
-
 /* ---------------------------------------------------------------- pass: hydrogens */
 
 static as_status pass_hydrogens(as_mol *m, as_error *err)
@@ -69,21 +61,25 @@ static as_status pass_hydrogens(as_mol *m, as_error *err)
             a->total_h = a->hcount;
             continue;
         }
-        if (a->elem == 0) {
-            a->total_h = 0;
-            continue;
+        a->total_h = 0;
+        if (a->elem <= 0 || a->elem >= N_VALENCE_ROWS || !default_valences[a->elem][0])
+            continue; /* '*' and elements outside the organic subset */
+        /* bond orders with aromatic bonds counted 1, and how many are aromatic */
+        int sum = 0, arom_bonds = 0;
+        for (int k = 0; k < a->degree; k++) {
+            int o = m->bonds[a->nbond[k]].order;
+            if (o == AS_BOND_AROMATIC) {
+                sum++;
+                arom_bonds++;
+            } else {
+                sum += o;
+            }
         }
-        int sum = order_sum(m, i);
         int v = as_default_valence(a->elem, sum);
-        if (v < 0) {
-            a->total_h = 0;
+        if (v < 0)
             continue;
-        }
         /* the aromatic pi contribution is subtracted only while the bonds are still written
          * aromatic; a molecule perceived before holds Kekulé orders that already count it */
-        int arom_bonds = 0;
-        for (int k = 0; k < a->degree; k++)
-            arom_bonds += m->bonds[a->nbond[k]].order == AS_BOND_AROMATIC;
         int h = v - sum - (a->aromatic && arom_bonds ? 1 : 0);
         a->total_h = h > 0 ? h : 0;
     }
@@ -137,7 +133,112 @@ static as_status pass_valence(as_mol *m, as_error *err)
     return AS_OK;
 }
 
+/* ---------------------------------------------------------------- scratch memory */
+
+/* Per-call scratch of a pass: a block on the stack for ordinary molecules (up to about a
+ * hundred atoms), one heap block beyond that. Nothing is kept between calls, so passes stay
+ * safe to run on several molecules in several threads at once. */
+typedef struct scratch {
+    unsigned char *base;
+    size_t used, cap;
+    void *heap;
+    uint64_t local[640];
+} scratch;
+
+static size_t al8(size_t n)
+{
+    return (n + 7) & ~(size_t)7;
+}
+
+/* Makes room for need bytes (the sum of al8() of every later take); 0 on success. */
+static int scratch_init(scratch *s, size_t need)
+{
+    s->used = 0;
+    s->heap = NULL;
+    if (need <= sizeof s->local) {
+        s->base = (unsigned char *)s->local;
+        s->cap = sizeof s->local;
+        return 0;
+    }
+    s->heap = malloc(need);
+    s->base = s->heap;
+    s->cap = need;
+    return s->heap ? 0 : -1;
+}
+
+/* Hands out the next n bytes (8-aligned); the caller sized the block in scratch_init. */
+static void *scratch_take(scratch *s, size_t n)
+{
+    void *p = s->base + s->used;
+    s->used += al8(n);
+    return p;
+}
+
+static void scratch_done(scratch *s)
+{
+    free(s->heap);
+}
+
+/* ---------------------------------------------------------------- hydrogens + valence */
+
+/* The hydrogen and valence passes in one sweep (as_perceive runs it when both are asked
+ * for): one loop over each atom's bonds serves both. Hydrogens are set on every atom before
+ * the first over-valent atom is reported, as when the passes run one after the other. */
+static as_status pass_hydrogens_valence(as_mol *m, as_error *err)
+{
+    int bad = -1;
+    for (int i = 0; i < m->natoms; i++) {
+        as_atom *a = &m->atoms[i];
+        int sum = 0, arom_bonds = 0;
+        for (int k = 0; k < a->degree; k++) {
+            int o = m->bonds[a->nbond[k]].order;
+            if (o == AS_BOND_AROMATIC) {
+                sum++;
+                arom_bonds++;
+            } else {
+                sum += o;
+            }
+        }
+        if (a->hcount >= 0) {
+            a->total_h = a->hcount;
+        } else {
+            a->total_h = 0;
+            if (a->elem > 0 && a->elem < N_VALENCE_ROWS && default_valences[a->elem][0]) {
+                int v = as_default_valence(a->elem, sum);
+                int h = v - sum - (a->aromatic && arom_bonds ? 1 : 0);
+                if (v >= 0 && h > 0)
+                    a->total_h = h;
+            }
+        }
+        if (bad >= 0 || a->aromatic)
+            continue; /* aromatic atoms are checked after kekulisation */
+        int v = sum + a->total_h;
+        if ((a->elem == 17 || a->elem == 35 || a->elem == 53) && a->charge == 0 && !a->bracket) {
+            if (v > 7 || v % 2 == 0)
+                bad = i;
+        } else {
+            int maxv = max_valence(a->elem, a->charge);
+            if (maxv >= 0 && v > maxv)
+                bad = i;
+        }
+    }
+    return bad >= 0 ? check_valence_atom(m, bad, err) : AS_OK;
+}
+
 /* ---------------------------------------------------------------- pass: rings */
+
+/* How the ring pass works (the result is the same as running the full search on every ring
+ * system, which it was checked against):
+ *  1. Ring bonds by bridge finding (Tarjan, linear), which also counts components.
+ *  2. Ring systems (atoms joined by ring bonds) with their cyclomatic number. A system with
+ *     cyclomatic number 1 is a single ring: every atom has two ring bonds, and the ring is
+ *     walked directly.
+ *  3. Fused, spiro-free bridged and other systems with more than one ring get the full
+ *     search: for each ring bond the shortest cycle through it (breadth first), candidates
+ *     sorted by size, and a GF(2) basis keeps the independent ones (smallest set of smallest
+ *     rings).
+ * Rings are listed by size, ties by the lowest-numbered bond that found them; a ring's atoms
+ * start at atom a of that bond and run round the ring away from atom b, ending at b. */
 
 typedef struct ring_work {
     int nb;           /* bonds */
@@ -147,30 +248,20 @@ typedef struct ring_work {
     int nbasis;
 } ring_work;
 
-/* Tarjan bridge finding, iterative: is_ring_bond[b] = 1 when b lies on a cycle. */
-static int find_ring_bonds(const as_mol *m, char *is_ring_bond)
+/* Tarjan bridge finding, iterative: ringb[b] = 1 when b lies on a cycle. The five arrays
+ * hold natoms ints each (caller's scratch). Returns the number of connected components. */
+static int find_ring_bonds(const as_mol *m, char *ringb, int *disc, int *low, int *parent_bond,
+                           int *iter, int *stack)
 {
-    int n = m->natoms;
-    int *disc = malloc((size_t)n * sizeof(int));
-    int *low = malloc((size_t)n * sizeof(int));
-    int *parent_bond = malloc((size_t)n * sizeof(int));
-    int *iter = malloc((size_t)n * sizeof(int));
-    int *stack = malloc((size_t)n * sizeof(int));
-    if (!disc || !low || !parent_bond || !iter || !stack) {
-        free(disc);
-        free(low);
-        free(parent_bond);
-        free(iter);
-        free(stack);
-        return -1;
-    }
+    int n = m->natoms, ncomp = 0;
     for (int i = 0; i < n; i++)
         disc[i] = -1;
-    memset(is_ring_bond, 1, (size_t)m->nbonds);
+    memset(ringb, 1, (size_t)m->nbonds);
     int t = 0;
     for (int s = 0; s < n; s++) {
         if (disc[s] >= 0)
             continue;
+        ncomp++;
         int top = 0;
         stack[top++] = s;
         disc[s] = low[s] = t++;
@@ -198,17 +289,72 @@ static int find_ring_bonds(const as_mol *m, char *is_ring_bond)
                     if (low[u] < low[p])
                         low[p] = low[u];
                     if (low[u] > disc[p])
-                        is_ring_bond[parent_bond[u]] = 0;
+                        ringb[parent_bond[u]] = 0;
                 }
             }
         }
     }
-    free(disc);
-    free(low);
-    free(parent_bond);
-    free(iter);
-    free(stack);
-    return 0;
+    return ncomp;
+}
+
+static as_status find_rings(as_mol *m, as_error *err);
+
+/* The common case without bridge finding: strip atoms of degree 0 or 1 until none is left
+ * (the 2-core). When every connected piece of the core is a single cycle (as many bonds as
+ * atoms), those cycles are the ring systems and the core bonds the ring bonds: ringb, sys
+ * (-1 outside rings), cyc (1 per system) and *nsys are filled and the number of core atoms
+ * returned (0: acyclic). Returns -1 when a piece holds more than one cycle (fused, bridged
+ * or spiro rings, or rings joined by a chain): the caller then does the full analysis. deg
+ * and queue are natoms ints of scratch. */
+static int prune_to_core(const as_mol *m, char *ringb, int *sys, int *cyc, int *nsys, int *deg,
+                         int *queue)
+{
+    int n = m->natoms, head = 0, tail = 0, ncore = n;
+    for (int i = 0; i < n; i++) {
+        deg[i] = m->atoms[i].degree;
+        sys[i] = -1;
+        if (deg[i] <= 1)
+            queue[tail++] = i;
+    }
+    while (head < tail) {
+        int x = queue[head++];
+        deg[x] = -1; /* removed */
+        ncore--;
+        const as_atom *a = &m->atoms[x];
+        for (int k = 0; k < a->degree; k++) {
+            int y = a->nbr[k];
+            if (deg[y] > 0 && --deg[y] == 1)
+                queue[tail++] = y;
+        }
+    }
+    *nsys = 0;
+    if (ncore == 0)
+        return 0;
+    /* pieces of the core: a single cycle has only atoms of core degree 2 */
+    for (int i = 0; i < n; i++)
+        if (deg[i] > 2)
+            return -1;
+    for (int s = 0; s < n; s++) {
+        if (deg[s] < 0 || sys[s] >= 0)
+            continue;
+        int top = 0;
+        queue[top++] = s;
+        sys[s] = *nsys;
+        while (top) {
+            const as_atom *a = &m->atoms[queue[--top]];
+            for (int k = 0; k < a->degree; k++) {
+                int y = a->nbr[k];
+                if (deg[y] >= 0 && sys[y] < 0) {
+                    sys[y] = *nsys;
+                    queue[top++] = y;
+                }
+            }
+        }
+        cyc[(*nsys)++] = 1;
+    }
+    for (int b = 0; b < m->nbonds; b++)
+        ringb[b] = deg[m->bonds[b].a] >= 0 && deg[m->bonds[b].b] >= 0;
+    return ncore;
 }
 
 /* Inserts set into the GF(2) basis when independent; returns 1 when added. */
@@ -241,8 +387,10 @@ static int basis_add(ring_work *w, uint64_t *set)
     return 1;
 }
 
+/* A ring found: its size, the bond whose search found it, where its atoms are. */
 typedef struct cand {
     int size;
+    int bond;
     int start;   /* offset into the atom pool */
 } cand;
 
@@ -251,56 +399,40 @@ static int cand_cmp(const void *x, const void *y)
     const cand *a = x, *b = y;
     if (a->size != b->size)
         return a->size - b->size;
-    return a->start - b->start;
+    return a->bond - b->bond;
 }
 
-static as_status pass_rings(as_mol *m, as_error *err)
+/* Smallest set of smallest rings of the systems whose cyclomatic number cyc[sys] is above 1.
+ * dist, prevb and queue are natoms ints of scratch. On success *out holds the accepted rings
+ * (sorted, atoms in *out_pool; both new, caller frees) and *nout their number. */
+static as_status complex_rings(as_mol *m, const char *ringb, const int *sys, const int *cyc,
+                               int target, int *dist, int *prevb, int *queue, cand **out,
+                               int **out_pool, int *nout, as_error *err)
 {
-    free(m->ring_start);
-    free(m->ring_atoms);
-    m->ring_start = NULL;
-    m->ring_atoms = NULL;
-    m->nrings = 0;
-    for (int i = 0; i < m->natoms; i++)
-        m->atoms[i].ring_size = 0;
-    for (int i = 0; i < m->nbonds; i++)
-        m->bonds[i].ring_size = 0;
-    if (m->nbonds == 0)
-        return AS_OK;
-    int *comp = malloc((size_t)m->natoms * sizeof(int));
-    if (!comp)
-        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
-    int ncomp = as_mol_components(m, comp);
-    free(comp);
-    int target = m->nbonds - m->natoms + ncomp;
-    if (target <= 0)
-        return AS_OK;
-
     as_status st = AS_OK;
     int n = m->natoms;
-    char *ringb = malloc((size_t)m->nbonds);
-    int *dist = malloc((size_t)n * sizeof(int));
-    int *prevb = malloc((size_t)n * sizeof(int));
-    int *queue = malloc((size_t)n * sizeof(int));
     cand *cands = NULL;
     int ncands = 0, capc = 0;
     int *pool = NULL;
     int npool = 0, cappool = 0;
     ring_work w = {m->nbonds, (m->nbonds + 63) / 64, NULL, NULL, 0};
     uint64_t *set = NULL;
-    if (!ringb || !dist || !prevb || !queue || find_ring_bonds(m, ringb)) {
-        st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
-        goto out;
-    }
+    cand *acc = NULL;
+    int *apool = NULL;
+    int nacc = 0, aused = 0;
+    *out = NULL;
+    *out_pool = NULL;
+    *nout = 0;
     /* Candidates: for each ring bond u-v, the shortest path v..u avoiding the bond, closed by
      * it; every bond's smallest ring of up to AS_RING_SEARCH_MAX atoms is then known exactly.
      * The search stops at that size (a ring bond of a larger ring gets ring_size
      * AS_RING_SEARCH_MAX + 1 and no SSSR entry), and only the atoms it reached are reset, so
-     * a 100,000-atom ring or 20,000 small rings cost about n * min(ring, limit), not n². */
+     * a 100,000-atom ring system or 20,000 small rings cost about n * min(ring, limit), not
+     * n². */
     for (int i = 0; i < n; i++)
         dist[i] = -1;
     for (int b = 0; b < m->nbonds; b++) {
-        if (!ringb[b])
+        if (!ringb[b] || cyc[sys[m->bonds[b].a]] <= 1)
             continue;
         int u = m->bonds[b].a, v = m->bonds[b].b;
         int head = 0, tail = 0;
@@ -372,26 +504,26 @@ static as_status pass_rings(as_mol *m, as_error *err)
             capc = nc;
         }
         cands[ncands].size = size;
+        cands[ncands].bond = b;
         cands[ncands].start = npool;
         ncands++;
         npool += size;
     }
-    if (cands) /* NULL when every ring is larger than AS_RING_SEARCH_MAX */
-        qsort(cands, (size_t)ncands, sizeof(cand), cand_cmp);
-    if (w.words <= 0 || target > m->nbonds) /* never: keeps the sizes below provably small */
+    if (!cands) /* every ring is larger than AS_RING_SEARCH_MAX */
+        goto out;
+    qsort(cands, (size_t)ncands, sizeof(cand), cand_cmp);
+    if (w.words <= 0 || target <= 0 || target > m->nbonds) /* never: keeps sizes small */
         goto out;
     w.basis = calloc((size_t)target * (size_t)w.words, sizeof(uint64_t));
     w.pivot = malloc((size_t)target * sizeof(int));
     set = malloc((size_t)w.words * sizeof(uint64_t));
-    m->ring_start = malloc((size_t)(target + 1) * sizeof(int));
-    m->ring_atoms = malloc((size_t)(npool > 0 ? npool : 1) * sizeof(int));
-    if (!w.basis || !w.pivot || !set || !m->ring_start || !m->ring_atoms) {
+    acc = malloc((size_t)target * sizeof(cand));
+    apool = malloc((size_t)npool * sizeof(int));
+    if (!w.basis || !w.pivot || !set || !acc || !apool) {
         st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
         goto out;
     }
-    int used = 0;
-    m->ring_start[0] = 0;
-    for (int c = 0; c < ncands && m->nrings < target; c++) {
+    for (int c = 0; c < ncands && nacc < target; c++) {
         memset(set, 0, (size_t)w.words * sizeof(uint64_t));
         const int *ra = pool + cands[c].start;
         int sz = cands[c].size;
@@ -401,10 +533,187 @@ static as_status pass_rings(as_mol *m, as_error *err)
         }
         if (!basis_add(&w, set))
             continue;
-        memcpy(m->ring_atoms + used, ra, (size_t)sz * sizeof(int));
-        used += sz;
-        m->nrings++;
-        m->ring_start[m->nrings] = used;
+        memcpy(apool + aused, ra, (size_t)sz * sizeof(int));
+        acc[nacc].size = sz;
+        acc[nacc].bond = cands[c].bond;
+        acc[nacc].start = aused;
+        nacc++;
+        aused += sz;
+    }
+    *out = acc;
+    *out_pool = apool;
+    *nout = nacc;
+    acc = NULL;
+    apool = NULL;
+out:
+    free(cands);
+    free(pool);
+    free(w.basis);
+    free(w.pivot);
+    free(set);
+    free(acc);
+    free(apool);
+    return st;
+}
+
+static as_status pass_rings(as_mol *m, as_error *err)
+{
+    if (m->rings_known)
+        return AS_OK; /* no edit since the last search could change a ring */
+    as_status st = find_rings(m, err);
+    m->rings_known = st == AS_OK;
+    return st;
+}
+
+static as_status find_rings(as_mol *m, as_error *err)
+{
+    as_mol_set_rings(m, 0, NULL, NULL);
+    for (int i = 0; i < m->natoms; i++)
+        m->atoms[i].ring_size = 0;
+    for (int i = 0; i < m->nbonds; i++)
+        m->bonds[i].ring_size = 0;
+    if (m->nbonds == 0)
+        return AS_OK;
+    int n = m->natoms;
+    size_t ni = al8((size_t)n * sizeof(int));
+    scratch sc;
+    if (scratch_init(&sc, 11 * ni + al8((size_t)m->nbonds) + al8(3 * (size_t)n * sizeof(int))))
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    int *disc = scratch_take(&sc, ni), *low = scratch_take(&sc, ni);
+    int *parent_bond = scratch_take(&sc, ni), *iter = scratch_take(&sc, ni);
+    int *stack = scratch_take(&sc, ni), *sys = scratch_take(&sc, ni);
+    int *cyc = scratch_take(&sc, ni), *spool = scratch_take(&sc, ni);
+    cand *simple = scratch_take(&sc, 3 * (size_t)n * sizeof(int));
+    char *ringb = scratch_take(&sc, (size_t)m->nbonds);
+    as_status st = AS_OK;
+    cand *cx = NULL;
+    int *cxpool = NULL, ncx = 0;
+
+    int nsys = 0, target_cx = 0;
+    int core = prune_to_core(m, ringb, sys, cyc, &nsys, disc, stack);
+    if (core == 0)
+        goto out; /* acyclic */
+    if (core < 0) { /* more than one ring in a system, or rings joined by chains */
+        int ncomp = find_ring_bonds(m, ringb, disc, low, parent_bond, iter, stack);
+        if (m->nbonds - m->natoms + ncomp <= 0)
+            goto out; /* acyclic */
+
+        /* ring systems and their cyclomatic numbers (ring bonds - atoms + 1) */
+        for (int i = 0; i < n; i++)
+            sys[i] = -1;
+        for (int s = 0; s < n; s++) {
+            if (sys[s] >= 0)
+                continue;
+            int ring_atom = 0;
+            for (int k = 0; k < m->atoms[s].degree && !ring_atom; k++)
+                ring_atom = ringb[m->atoms[s].nbond[k]];
+            if (!ring_atom)
+                continue;
+            int top = 0, na = 0, ends = 0;
+            stack[top++] = s;
+            sys[s] = nsys;
+            while (top) {
+                int x = stack[--top];
+                na++;
+                for (int k = 0; k < m->atoms[x].degree; k++) {
+                    if (!ringb[m->atoms[x].nbond[k]])
+                        continue;
+                    ends++;
+                    int y = m->atoms[x].nbr[k];
+                    if (sys[y] < 0) {
+                        sys[y] = nsys;
+                        stack[top++] = y;
+                    }
+                }
+            }
+            cyc[nsys] = ends / 2 - na + 1;
+            if (cyc[nsys] > 1)
+                target_cx += cyc[nsys];
+            nsys++;
+        }
+    }
+
+    /* single rings: walked from atom a of their lowest-numbered bond, away from atom b */
+    int nsimple = 0, nspool = 0;
+    for (int b = 0; b < m->nbonds; b++) {
+        if (!ringb[b])
+            continue;
+        int id = sys[m->bonds[b].a];
+        if (cyc[id] != 1)
+            continue;
+        cyc[id] = 0; /* done */
+        int u = m->bonds[b].a, v = m->bonds[b].b, cur = u, came = b, size = 0;
+        int *ring = spool + nspool;
+        for (;;) {
+            ring[size++] = cur;
+            if (cur == v)
+                break;
+            const as_atom *a = &m->atoms[cur];
+            int k = 0;
+            while (a->nbond[k] == came || !ringb[a->nbond[k]])
+                k++;
+            came = a->nbond[k];
+            cur = a->nbr[k];
+        }
+        int rs = size <= AS_RING_SEARCH_MAX ? size : AS_RING_SEARCH_MAX + 1;
+        for (int j = 0; j < size; j++) {
+            const as_atom *a = &m->atoms[ring[j]];
+            for (int k = 0; k < a->degree; k++)
+                if (ringb[a->nbond[k]])
+                    m->bonds[a->nbond[k]].ring_size = rs;
+        }
+        if (size > AS_RING_SEARCH_MAX)
+            continue;
+        simple[nsimple].size = size;
+        simple[nsimple].bond = b;
+        simple[nsimple].start = nspool;
+        nsimple++;
+        nspool += size;
+    }
+    /* a handful at most: insertion sort by size, then bond */
+    for (int i = 1; i < nsimple; i++)
+        for (int j = i; j > 0 && cand_cmp(&simple[j - 1], &simple[j]) > 0; j--) {
+            cand t = simple[j];
+            simple[j] = simple[j - 1];
+            simple[j - 1] = t;
+        }
+
+    if (target_cx > 0 &&
+        (st = complex_rings(m, ringb, sys, cyc, target_cx, disc, low, iter, &cx, &cxpool, &ncx,
+                            err)) != AS_OK)
+        goto out;
+
+    /* merge the two sorted lists */
+    int nr = nsimple + ncx;
+    if (nr > 0) {
+        int total = nspool;
+        for (int i = 0; i < ncx; i++)
+            total += cx[i].size;
+        int *rstart = malloc((size_t)(nr + 1) * sizeof(int));
+        int *ratoms = malloc((size_t)total * sizeof(int));
+        if (!rstart || !ratoms) {
+            free(rstart);
+            free(ratoms);
+            st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+            goto out;
+        }
+        as_mol_set_rings(m, 0, rstart, ratoms);
+        int i = 0, j = 0, used = 0;
+        m->ring_start[0] = 0;
+        while (i < nsimple || j < ncx) {
+            const int *src;
+            int sz;
+            if (j == ncx || (i < nsimple && cand_cmp(&simple[i], &cx[j]) < 0)) {
+                src = spool + simple[i].start;
+                sz = simple[i++].size;
+            } else {
+                src = cxpool + cx[j].start;
+                sz = cx[j++].size;
+            }
+            memcpy(m->ring_atoms + used, src, (size_t)sz * sizeof(int));
+            used += sz;
+            m->ring_start[++m->nrings] = used;
+        }
     }
     for (int b = 0; b < m->nbonds; b++) {
         int s = m->bonds[b].ring_size;
@@ -417,15 +726,9 @@ static as_status pass_rings(as_mol *m, as_error *err)
         }
     }
 out:
-    free(ringb);
-    free(dist);
-    free(prevb);
-    free(queue);
-    free(cands);
-    free(pool);
-    free(w.basis);
-    free(w.pivot);
-    free(set);
+    free(cx);
+    free(cxpool);
+    scratch_done(&sc);
     return st;
 }
 
@@ -469,6 +772,8 @@ typedef struct kek {
     as_mol *m;
     char *need;     /* atom still needs a double bond */
     long steps;
+    const int *cand; /* the atoms that needed one at the start, ascending */
+    int ncand;
 } kek;
 
 /* Picks a partner for the lowest-option atom, recursively. */
@@ -478,7 +783,8 @@ static int kek_solve(kek *k)
     if (++k->steps > 2000000)
         return -1;
     int best = -1, best_opts = 99;
-    for (int i = 0; i < m->natoms; i++) {
+    for (int c = 0; c < k->ncand; c++) {
+        int i = k->cand[c];
         if (!k->need[i])
             continue;
         int opts = 0;
@@ -546,9 +852,12 @@ static as_status pass_kekule(as_mol *m, as_error *err)
                                     "aromatic bond ':' between atoms that are not aromatic");
         return AS_OK;
     }
-    kek k = {m, calloc((size_t)m->natoms, 1), 0};
-    if (!k.need)
+    scratch sc;
+    if (scratch_init(&sc, al8((size_t)m->natoms) + al8((size_t)m->natoms * sizeof(int))))
         return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    int *needy = scratch_take(&sc, (size_t)m->natoms * sizeof(int));
+    kek k = {m, scratch_take(&sc, (size_t)m->natoms), 0, needy, 0};
+    memset(k.need, 0, (size_t)m->natoms);
     int first_need = -1;
     for (int i = 0; i < m->natoms; i++) {
         if (!m->atoms[i].aromatic)
@@ -559,6 +868,7 @@ static as_status pass_kekule(as_mol *m, as_error *err)
                 has_arom_bond = 1;
         if (has_arom_bond && needs_double(m, i)) {
             k.need[i] = 1;
+            needy[k.ncand++] = i;
             if (first_need < 0)
                 first_need = i;
         }
@@ -604,7 +914,7 @@ static as_status pass_kekule(as_mol *m, as_error *err)
             if (m->atoms[i].aromatic)
                 st = check_valence_atom(m, i, err);
     }
-    free(k.need);
+    scratch_done(&sc);
     return st;
 }
 
@@ -709,18 +1019,19 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
     int n = m->natoms;
     int nr = m->nrings, total = m->ring_start[nr];
     as_status st = AS_OK;
-    int *sys = malloc((size_t)n * sizeof(int));
-    int *pi = malloc((size_t)n * sizeof(int));
-    char *ring_done = calloc((size_t)nr, 1);
-    int *buf = malloc((size_t)(n + 1) * sizeof(int));
-    char *seen = calloc((size_t)n, 1);
-    int *at_start = calloc((size_t)n + 1, sizeof(int)); /* rings through each atom (CSR) */
-    int *at_ring = malloc((size_t)(total ? total : 1) * sizeof(int));
-    int *mark = malloc((size_t)nr * sizeof(int));
-    if (!sys || !pi || !ring_done || !buf || !seen || !at_start || !at_ring || !mark) {
-        st = as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
-        goto out;
-    }
+    size_t ni = (size_t)n * sizeof(int), ni1 = ((size_t)n + 1) * sizeof(int);
+    size_t nt = (size_t)(total ? total : 1) * sizeof(int), nri = (size_t)nr * sizeof(int);
+    scratch sc;
+    if (scratch_init(&sc, 2 * al8(ni) + al8((size_t)nr) + 2 * al8(ni1) + al8((size_t)n) +
+                              al8(nt) + al8(nri)))
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    int *sys = scratch_take(&sc, ni), *pi = scratch_take(&sc, ni);
+    char *ring_done = scratch_take(&sc, (size_t)nr);
+    int *buf = scratch_take(&sc, ni1);
+    char *seen = scratch_take(&sc, (size_t)n);
+    int *at_start = scratch_take(&sc, ni1); /* rings through each atom (CSR) */
+    int *at_ring = scratch_take(&sc, nt), *mark = scratch_take(&sc, nri);
+    memset(ring_done, 0, (size_t)nr);
     for (int i = 0; i < n; i++)
         sys[i] = i;
     for (int b = 0; b < m->nbonds; b++)
@@ -739,48 +1050,52 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
         if (e - s <= 24 && ring_set_aromatic(m->ring_atoms + s, e - s, pi))
             ring_done[r] = 1;
     }
-    /* only rings that touch are paired */
-    for (int j = 0; j < total; j++)
-        at_start[m->ring_atoms[j] + 1]++;
-    for (int i = 0; i < n; i++)
-        at_start[i + 1] += at_start[i];
-    for (int r = 0; r < nr; r++)
-        for (int j = m->ring_start[r]; j < m->ring_start[r + 1]; j++)
-            at_ring[at_start[m->ring_atoms[j]]++] = r;
-    for (int i = n; i > 0; i--)
-        at_start[i] = at_start[i - 1];
-    at_start[0] = 0;
-    for (int r = 0; r < nr; r++)
-        mark[r] = -1;
-    for (int r1 = 0; r1 < nr; r1++) {
-        int s1 = m->ring_start[r1], e1 = m->ring_start[r1 + 1];
-        for (int j1 = s1; j1 < e1; j1++) {
-            int x = m->ring_atoms[j1];
-            for (int q = at_start[x]; q < at_start[x + 1]; q++) {
-                int r2 = at_ring[q];
-                if (r2 <= r1 || mark[r2] == r1)
-                    continue;
-                mark[r2] = r1;
-                if (ring_done[r1] && ring_done[r2])
-                    continue;
-                int s2 = m->ring_start[r2], e2 = m->ring_start[r2 + 1];
-                if (e1 - s1 + e2 - s2 > 24)
-                    continue;
-                int shared = 0, k = 0;
-                for (int j = s1; j < e1; j++) {
-                    buf[k++] = m->ring_atoms[j];
-                    seen[m->ring_atoms[j]] = 1;
-                }
-                for (int j = s2; j < e2; j++) {
-                    if (seen[m->ring_atoms[j]])
-                        shared++;
-                    else
+    /* only rings that touch are paired (a molecule with one ring has none) */
+    if (nr > 1) {
+        memset(seen, 0, (size_t)n);
+        memset(at_start, 0, ni1);
+        for (int j = 0; j < total; j++)
+            at_start[m->ring_atoms[j] + 1]++;
+        for (int i = 0; i < n; i++)
+            at_start[i + 1] += at_start[i];
+        for (int r = 0; r < nr; r++)
+            for (int j = m->ring_start[r]; j < m->ring_start[r + 1]; j++)
+                at_ring[at_start[m->ring_atoms[j]]++] = r;
+        for (int i = n; i > 0; i--)
+            at_start[i] = at_start[i - 1];
+        at_start[0] = 0;
+        for (int r = 0; r < nr; r++)
+            mark[r] = -1;
+        for (int r1 = 0; r1 < nr; r1++) {
+            int s1 = m->ring_start[r1], e1 = m->ring_start[r1 + 1];
+            for (int j1 = s1; j1 < e1; j1++) {
+                int x = m->ring_atoms[j1];
+                for (int q = at_start[x]; q < at_start[x + 1]; q++) {
+                    int r2 = at_ring[q];
+                    if (r2 <= r1 || mark[r2] == r1)
+                        continue;
+                    mark[r2] = r1;
+                    if (ring_done[r1] && ring_done[r2])
+                        continue;
+                    int s2 = m->ring_start[r2], e2 = m->ring_start[r2 + 1];
+                    if (e1 - s1 + e2 - s2 > 24)
+                        continue;
+                    int shared = 0, k = 0;
+                    for (int j = s1; j < e1; j++) {
                         buf[k++] = m->ring_atoms[j];
+                        seen[m->ring_atoms[j]] = 1;
+                    }
+                    for (int j = s2; j < e2; j++) {
+                        if (seen[m->ring_atoms[j]])
+                            shared++;
+                        else
+                            buf[k++] = m->ring_atoms[j];
+                    }
+                    for (int j = s1; j < e1; j++)
+                        seen[m->ring_atoms[j]] = 0;
+                    if (shared == 2 && ring_set_aromatic(buf, k, pi))
+                        ring_done[r1] = ring_done[r2] = 1;
                 }
-                for (int j = s1; j < e1; j++)
-                    seen[m->ring_atoms[j]] = 0;
-                if (shared == 2 && ring_set_aromatic(buf, k, pi))
-                    ring_done[r1] = ring_done[r2] = 1;
             }
         }
     }
@@ -796,15 +1111,7 @@ static as_status pass_aromatic(as_mol *m, as_error *err)
                 m->bonds[b].aromatic = 1;
         }
     }
-out:
-    free(sys);
-    free(pi);
-    free(ring_done);
-    free(buf);
-    free(seen);
-    free(at_start);
-    free(at_ring);
-    free(mark);
+    scratch_done(&sc);
     return st;
 }
 
@@ -906,7 +1213,18 @@ as_status as_perceive(as_mol *m, unsigned passes, unsigned *failed_pass, as_erro
     };
     if (failed_pass)
         *failed_pass = 0;
-    for (size_t i = 0; i < sizeof table / sizeof table[0]; i++) {
+    size_t first = 0;
+    if ((passes & (AS_PASS_HYDROGENS | AS_PASS_VALENCE)) ==
+        (AS_PASS_HYDROGENS | AS_PASS_VALENCE)) {
+        as_status st = pass_hydrogens_valence(m, err);
+        if (st != AS_OK) {
+            if (failed_pass)
+                *failed_pass = AS_PASS_VALENCE;
+            return st;
+        }
+        first = 2; /* table[0] and table[1] are done */
+    }
+    for (size_t i = first; i < sizeof table / sizeof table[0]; i++) {
         if (!(passes & table[i].bit))
             continue;
         as_status st = table[i].run(m, err);

@@ -139,27 +139,26 @@ static int classify_nbr(const as_mol *m, int c, int x, int sat)
 {
     const as_atom *a = &m->atoms[x];
     switch (a->elem) {
-    case 6:
+    case 6: {
         if (a->aromatic)
             return NB_ARYL;
-        if (count_bonded(m, x, 2, 8) || count_bonded(m, x, 2, 16) || count_bonded(m, x, 2, 7))
-            return NB_CO;
-        if (count_bonded(m, x, 3, 7))
-            return NB_CN;
-        if (count_elem(m, x, 9) >= 2)
-            return NB_CF;
-        if (x != sat) {
-            const as_atom *xa = &m->atoms[x];
-            for (int i = 0; i < xa->degree; i++) {
-                int y = xa->nbr[i];
-                const as_bond *b = &m->bonds[xa->nbond[i]];
-                if (y != c && b->order == 2 && !b->aromatic && m->atoms[y].elem == 6)
-                    return NB_VINYL;
-                if (y != c && b->order == 3 && m->atoms[y].elem == 6)
-                    return NB_VINYL;
-            }
+        /* one pass over x's bonds; the tests keep their order of precedence: C=O/C=S/C=N,
+         * then C#N, then CF2/CF3, then a C=C or C#C away from c (not for the carbon sat) */
+        int co = 0, cn = 0, nf = 0, vinyl = 0;
+        for (int i = 0; i < a->degree; i++) {
+            int y = a->nbr[i], ye = m->atoms[y].elem;
+            const as_bond *b = &m->bonds[a->nbond[i]];
+            nf += ye == 9;
+            if (!b->aromatic && b->order == 2 && (ye == 8 || ye == 16 || ye == 7))
+                co = 1;
+            if (!b->aromatic && b->order == 3 && ye == 7)
+                cn = 1;
+            if (x != sat && y != c && ye == 6 &&
+                ((b->order == 2 && !b->aromatic) || b->order == 3))
+                vinyl = 1;
         }
-        return NB_ALKYL;
+        return co ? NB_CO : cn ? NB_CN : nf >= 2 ? NB_CF : vinyl ? NB_VINYL : NB_ALKYL;
+    }
     case 7:
         if (count_elem(m, x, 8) >= 2)
             return NB_NO2;
@@ -277,6 +276,20 @@ static int classify_ring_subst(const as_mol *m, int r, int y)
     }
 }
 
+/* Copies at most maxn bytes of src (up to its NUL) into dst of cap bytes, truncating like
+ * snprintf("%.*s"); returns the bytes copied. */
+static size_t copy_trunc(char *dst, size_t cap, const char *src, size_t maxn)
+{
+    size_t n = strnlen(src, maxn);
+    if (cap == 0)
+        return 0;
+    if (n > cap - 1)
+        n = cap - 1;
+    memcpy(dst, src, n);
+    dst[n] = '\0';
+    return n;
+}
+
 /* Sums σ+ over the meta and para substituents of the aryl ring whose ipso atom is x,
  * writing a note like "p-OMe". Ortho substituents are not in the Brown–Okamoto scale and
  * are left out. */
@@ -298,9 +311,16 @@ static double aryl_sigma(const as_mol *m, int x, char *note, size_t cap)
                 continue;
             sum += para ? sigma_plus[s].para : sigma_plus[s].meta;
             size_t used = strlen(note);
-            if (used + 12 < cap)
-                snprintf(note + used, cap - used, "%s%s-%s", used ? "," : "", para ? "p" : "m",
-                         sigma_plus[s].name);
+            if (used + 12 < cap) {
+                char item[64];
+                size_t n = 0;
+                if (used)
+                    item[n++] = ',';
+                item[n++] = para ? 'p' : 'm';
+                item[n++] = '-';
+                n += copy_trunc(item + n, sizeof item - n, sigma_plus[s].name, (size_t)-1);
+                copy_trunc(note + used, cap - used, item, n);
+            }
         }
     }
     return sum;
@@ -612,14 +632,15 @@ static void classify_site(as_site *s)
         c = "tetrasubstituted";
         break;
     }
-    snprintf(s->cls, sizeof s->cls, "%s", c);
+    copy_trunc(s->cls, sizeof s->cls, c, (size_t)-1);
     if (s->n_subst == 1) {
         const as_site_end *sub = a->n_heavy ? a : b;
         if (sub->n_aryl == 1) {
-            if (sub->aryl_note[0] && !strchr(sub->aryl_note, ','))
-                snprintf(s->cls, sizeof s->cls, "styrene:%.39s", sub->aryl_note);
-            else
-                snprintf(s->cls, sizeof s->cls, "styrene");
+            copy_trunc(s->cls, sizeof s->cls, "styrene", (size_t)-1);
+            if (sub->aryl_note[0] && !strchr(sub->aryl_note, ',')) {
+                s->cls[7] = ':';
+                copy_trunc(s->cls + 8, sizeof s->cls - 8, sub->aryl_note, 39);
+            }
         }
     }
 }

@@ -7,6 +7,8 @@
 #include "status_int.h"
 
 #include <ctype.h>
+#include <stddef.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -44,7 +46,6 @@ typedef struct parser {
     size_t pos;
     as_mol *m;
     as_error *err;
-    ring_open rings[N_RING_NUMBERS];
     int open_rings;
     branch_frame *stack;
     int depth, cap_depth;
@@ -55,7 +56,23 @@ typedef struct parser {
     int *bond_dir_from;   /* per bond: the atom the mark is read from */
     long *bond_dir_off;   /* per bond: offset of the mark */
     int cap_bonds;
+    void *side_heap;      /* the block of the five side tables when on the heap, else NULL */
+    uint64_t rings_seen[2]; /* bit n set: rings[n] holds data (else it is free, unset) */
+    /* Not cleared when a parse starts (the fields above are): */
+    ring_open rings[N_RING_NUMBERS];
+    uint64_t side_local[768]; /* their block for ordinary molecules (up to about 80 atoms) */
 } parser;
+
+/* The ring-closure slot of number num, marked free the first time it is used. */
+static ring_open *ring_slot(parser *p, int num)
+{
+    uint64_t bit = (uint64_t)1 << (num % 64);
+    if (!(p->rings_seen[num / 64] & bit)) {
+        p->rings_seen[num / 64] |= bit;
+        p->rings[num].atom = -1;
+    }
+    return &p->rings[num];
+}
 
 static as_status fail(parser *p, as_status code, long offset, const char *fmt, const char *tok)
 {
@@ -64,41 +81,104 @@ static as_status fail(parser *p, as_status code, long offset, const char *fmt, c
 
 /* ---------------------------------------------------------------- per-atom/bond side tables */
 
+static int is_space(char c)
+{
+    return c == ' ' || c == '\t' || c == '\r' || c == '\n' || c == '\v' || c == '\f';
+}
+
+
+static size_t al8(size_t n)
+{
+    return (n + 7) & ~(size_t)7;
+}
+
+/* Moves the side tables to a block for na atoms and nb bonds (the parser's own storage when
+ * it is still free and large enough, else the heap), keeping their contents. */
+static int side_alloc(parser *p, int na, int nb)
+{
+    size_t so = al8((size_t)na * sizeof(written_order)), sc = al8((size_t)na);
+    size_t sd = al8((size_t)nb), sf = al8((size_t)nb * sizeof(int));
+    size_t sz = so + sc + sd + sf + al8((size_t)nb * sizeof(long));
+    unsigned char *blk;
+    int on_heap = 0;
+    if (!p->order && sz <= sizeof p->side_local) {
+        blk = (unsigned char *)p->side_local;
+    } else {
+        blk = malloc(sz);
+        if (!blk)
+            return -1;
+        on_heap = 1;
+    }
+    written_order *o = (written_order *)blk;
+    char *c = (char *)(blk + so);
+    char *d = (char *)(blk + so + sc);
+    int *f = (int *)(blk + so + sc + sd);
+    long *off = (long *)(blk + so + sc + sd + sf);
+    if (p->order) {
+        int ka = p->m->natoms < p->cap_order ? p->m->natoms : p->cap_order;
+        int kb = p->m->nbonds < p->cap_bonds ? p->m->nbonds : p->cap_bonds;
+        memcpy(o, p->order, (size_t)ka * sizeof *o);
+        memcpy(c, p->chiral, (size_t)ka);
+        memcpy(d, p->bond_dir, (size_t)kb);
+        memcpy(f, p->bond_dir_from, (size_t)kb * sizeof *f);
+        memcpy(off, p->bond_dir_off, (size_t)kb * sizeof *off);
+    }
+    free(p->side_heap);
+    p->side_heap = on_heap ? blk : NULL;
+    p->order = o;
+    p->chiral = c;
+    p->bond_dir = d;
+    p->bond_dir_from = f;
+    p->bond_dir_off = off;
+    p->cap_order = na;
+    p->cap_bonds = nb;
+    return 0;
+}
+
 static int grow_side(parser *p)
 {
-    if (p->m->natoms > p->cap_order) {
-        int n = p->cap_order ? p->cap_order * 2 : 64;
-        while (n < p->m->natoms)
-            n *= 2;
-        written_order *o = realloc(p->order, (size_t)n * sizeof *o);
-        if (!o)
-            return -1;
-        p->order = o;
-        char *c = realloc(p->chiral, (size_t)n);
-        if (!c)
-            return -1;
-        p->chiral = c;
-        p->cap_order = n;
+    if (p->m->natoms <= p->cap_order && p->m->nbonds <= p->cap_bonds)
+        return 0;
+    int na = p->cap_order, nb = p->cap_bonds;
+    if (p->m->natoms > na) {
+        na = na ? na * 2 : 64;
+        while (na < p->m->natoms)
+            na *= 2;
     }
-    if (p->m->nbonds > p->cap_bonds) {
-        int n = p->cap_bonds ? p->cap_bonds * 2 : 64;
-        while (n < p->m->nbonds)
-            n *= 2;
-        char *d = realloc(p->bond_dir, (size_t)n);
-        if (!d)
-            return -1;
-        p->bond_dir = d;
-        int *f = realloc(p->bond_dir_from, (size_t)n * sizeof *f);
-        if (!f)
-            return -1;
-        p->bond_dir_from = f;
-        long *o = realloc(p->bond_dir_off, (size_t)n * sizeof *o);
-        if (!o)
-            return -1;
-        p->bond_dir_off = o;
-        p->cap_bonds = n;
+    if (p->m->nbonds > nb) {
+        nb = nb ? nb * 2 : 64;
+        while (nb < p->m->nbonds)
+            nb *= 2;
     }
-    return 0;
+    return side_alloc(p, na, nb);
+}
+
+/* Upper bounds of the atoms and bonds of the SMILES at the start of s: an atom starts with
+ * '[', a letter or '*' outside brackets; a bond is a chain bond (at most one per atom) or a
+ * ring closure (at most one per digit outside brackets). */
+static void size_bounds(const char *s, size_t len, int *atoms, int *bonds)
+{
+    size_t na = 0, nd = 0;
+    int in_bracket = 0;
+    for (size_t i = 0; i < len; i++) {
+        unsigned char c = (unsigned char)s[i];
+        if (in_bracket) {
+            in_bracket = c != ']';
+        } else if (c == '[') {
+            in_bracket = 1;
+            na++;
+        } else if (isalpha(c) || c == '*') {
+            na++;
+        } else if (isdigit(c)) {
+            nd++;
+        } else if (is_space((char)c)) {
+            break;
+        }
+    }
+    if (na > AS_SMILES_MAX_ATOMS)
+        na = AS_SMILES_MAX_ATOMS;
+    *atoms = (int)na;
+    *bonds = (int)(na + (nd < AS_SMILES_MAX_ATOMS ? nd : AS_SMILES_MAX_ATOMS));
 }
 
 static void order_push(parser *p, int atom, int item)
@@ -494,10 +574,6 @@ void as_smiles_opts_init(as_smiles_opts *o)
     o->strict_title = 0;
 }
 
-static int is_space(char c)
-{
-    return c == ' ' || c == '\t' || c == '\r' || c == '\n' || c == '\v' || c == '\f';
-}
 
 static as_status parse_body(parser *p)
 {
@@ -593,7 +669,7 @@ static as_status parse_body(parser *p)
             if (prev < 0)
                 return fail(p, AS_ERR_SYNTAX, off, "ring bond number with no atom before it%s",
                             "");
-            ring_open *r = &p->rings[num];
+            ring_open *r = ring_slot(p, num);
             if (r->atom < 0) {
                 r->atom = prev;
                 r->order = pending_order;
@@ -725,7 +801,7 @@ static as_status parse_body(parser *p)
         long first = -1;
         int num = -1;
         for (int i = 0; i < N_RING_NUMBERS; i++)
-            if (p->rings[i].atom >= 0 && (first < 0 || p->rings[i].offset < first)) {
+            if (ring_slot(p, i)->atom >= 0 && (first < 0 || p->rings[i].offset < first)) {
                 first = p->rings[i].offset;
                 num = i;
             }
@@ -758,15 +834,19 @@ as_status as_smiles_read(const char *text, size_t len, const as_smiles_opts *opt
                                 "SMILES longer than the limit of %d bytes", AS_SMILES_MAX_LEN);
     }
     parser p;
-    memset(&p, 0, sizeof p);
+    memset(&p, 0, offsetof(parser, rings)); /* rings and the local block need no clearing */
     p.s = text;
     p.len = len;
     p.err = err;
-    for (int i = 0; i < N_RING_NUMBERS; i++)
-        p.rings[i].atom = -1;
-    p.m = as_mol_new();
+    int max_atoms, max_bonds;
+    size_bounds(text, len, &max_atoms, &max_bonds);
+    p.m = as_mol_new_sized(max_atoms, max_bonds);
     if (!p.m)
         return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    if (side_alloc(&p, max_atoms > 0 ? max_atoms : 1, max_bonds > 0 ? max_bonds : 1)) {
+        as_mol_free(p.m);
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    }
     as_status st = AS_OK;
     if (len == 0 || is_space(text[0])) {
         st = as_error_set(err, AS_ERR_EMPTY, 0, -1, "empty SMILES");
@@ -788,11 +868,7 @@ as_status as_smiles_read(const char *text, size_t len, const as_smiles_opts *opt
     }
 done:
     free(p.stack);
-    free(p.order);
-    free(p.chiral);
-    free(p.bond_dir);
-    free(p.bond_dir_from);
-    free(p.bond_dir_off);
+    free(p.side_heap);
     if (st != AS_OK) {
         as_mol_free(p.m);
         return st;

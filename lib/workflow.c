@@ -10,6 +10,7 @@
 #include "addsite/perceive.h"
 #include "addsite/sites.h"
 #include "addsite/smiles.h"
+#include "io_int.h"
 #include "status_int.h"
 
 #include <cjson/cJSON.h>
@@ -141,17 +142,22 @@ static char *xstrdup(const char *s)
 static char *xprintf(const char *fmt, ...) AS_PRINTF(1, 2);
 static char *xprintf(const char *fmt, ...)
 {
+    char tmp[512];
     va_list ap;
     va_start(ap, fmt);
-    int n = vsnprintf(NULL, 0, fmt, ap);
+    int n = as_fmt_v(tmp, sizeof tmp, fmt, ap);
     va_end(ap);
     if (n < 0)
         return NULL;
     char *s = malloc((size_t)n + 1);
     if (!s)
         return NULL;
+    if ((size_t)n < sizeof tmp) {
+        memcpy(s, tmp, (size_t)n + 1);
+        return s;
+    }
     va_start(ap, fmt);
-    vsnprintf(s, (size_t)n + 1, fmt, ap);
+    as_fmt_v(s, (size_t)n + 1, fmt, ap);
     va_end(ap);
     return s;
 }
@@ -209,7 +215,7 @@ static int note(as_check *c, const char *fmt, ...)
     va_list ap;
     va_start(ap, fmt);
     char buf[512];
-    vsnprintf(buf, sizeof buf, fmt, ap);
+    as_fmt_v(buf, sizeof buf, fmt, ap);
     va_end(ap);
     char **v = realloc(c->notes, (size_t)(c->nnotes + 1) * sizeof *v);
     if (!v)

@@ -87,13 +87,26 @@ typedef struct as_mol {
     int nrings;
     int *ring_start;
     int *ring_atoms;
+    /* Bookkeeping of mol.c, never to be set by callers: which of the arrays above share the
+     * molecule's own allocation (as_mol_new_sized, as_mol_copy) instead of one of their own. */
+    unsigned inline_arrays;
+    /* 1 while the ring data (ring_size of atoms and bonds, the ring list) is that of the
+     * current graph: set by the ring pass of as_perceive, which then skips the search; kept
+     * by edits that cannot change ring membership (bond orders, new atoms, a bond to an atom
+     * without bonds, removing a bond that is in no ring), cleared by every other edit through
+     * the functions below. Code that rewires atoms or bonds by hand must set it to 0. */
+    int rings_known;
 } as_mol;
 
 /* Returns new empty molecule, or NULL when out of memory; caller frees with as_mol_free. */
 as_mol *as_mol_new(void);
+/* Returns new empty molecule with room for atoms atoms and bonds bonds in one allocation
+ * (more may still be added), or NULL when out of memory; caller frees with as_mol_free. */
+as_mol *as_mol_new_sized(int atoms, int bonds);
 /* Frees m and everything it owns. NULL is a no-op. */
 void as_mol_free(as_mol *m);
-/* Returns new deep copy; caller frees with as_mol_free. NULL on out of memory. */
+/* Returns new deep copy (one allocation, with room for a few more atoms and bonds); caller
+ * frees with as_mol_free. NULL on out of memory. */
 as_mol *as_mol_copy(const as_mol *m);
 
 /* Appends an atom of element elem (all other fields at their "unset" values: charge 0,
@@ -123,6 +136,10 @@ as_status as_mol_remove_atom(as_mol *m, int a);
 void as_mol_set_bond_order(as_mol *m, int b, int order);
 /* Removes bond b (renumbering bonds above it) and drops its stereo record. */
 as_status as_mol_remove_bond(as_mol *m, int b);
+
+/* Replaces the ring list (ring_start, ring_atoms, nrings) with the given arrays, taking
+ * ownership of both (malloc'ed; NULL with nrings 0 clears it). */
+void as_mol_set_rings(as_mol *m, int nrings, int *ring_start, int *ring_atoms);
 
 /* Labels connected components 0.. in comp[natoms] (caller-sized); returns how many. */
 int as_mol_components(const as_mol *m, int *comp);
