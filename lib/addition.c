@@ -6,6 +6,9 @@
  * Design. Every product starts as a copy of the perceived substrate, so substrate atom
  * indices stay valid in all products (rationales name carbons by them); added groups are
  * appended. The product is perceived again, then stereo records for new centres are added.
+ * The canonical ranking that decides which atoms are stereocentres is kept with the adduct
+ * (as_adduct.ranking): the records do not change it, so the product's SMILES is written from
+ * it later without ranking the molecule again.
  *
  * Relative configuration. The C=C is laid in the xy plane: C1 (takes `first`) at the
  * origin, C2 at +x, each carbon's two other substituents at ±y ("up"/"down"). Which
@@ -80,6 +83,7 @@ void as_adduct_clear(as_adduct *a)
     if (!a)
         return;
     as_mol_free(a->mol);
+    as_canon_ranking_free(a->ranking);
     memset(a, 0, sizeof *a);
 }
 
@@ -303,8 +307,10 @@ static int is_centre(const as_mol *p, const int *cls, int c)
     return 1;
 }
 
-/* 1 when p equals its mirror image (canonical SMILES with all parities inverted). */
-static as_status is_achiral(const as_mol *p, int *achiral, as_error *err)
+/* 1 when p equals its mirror image (canonical SMILES with all parities inverted). r: p's
+ * kept ranking or NULL (the mirror image has the same graph). */
+static as_status is_achiral(const as_mol *p, const as_canon_ranking *r, int *achiral,
+                            as_error *err)
 {
     *achiral = 0;
     as_mol *q = as_mol_copy(p);
@@ -313,9 +319,9 @@ static as_status is_achiral(const as_mol *p, int *achiral, as_error *err)
     for (int i = 0; i < q->ntetra; i++)
         q->tetra[i].parity = q->tetra[i].parity == AS_CCW ? AS_CW : AS_CCW;
     char *a = NULL, *b = NULL;
-    as_status st = as_canon_smiles(p, NULL, &a, err);
+    as_status st = as_canon_smiles_ranked(p, NULL, r, &a, err);
     if (st == AS_OK)
-        st = as_canon_smiles(q, NULL, &b, err);
+        st = as_canon_smiles_ranked(q, NULL, r, &b, err);
     if (st == AS_OK)
         *achiral = strcmp(a, b) == 0;
     free(a);
@@ -334,7 +340,9 @@ static as_status finish_stereo(as_adduct *ad, const as_mol *sub, const int *cand
     int *cls = malloc((size_t)p->natoms * sizeof(int));
     if (!cls)
         return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
-    as_status st = as_canon_classes(p, cls, err);
+    as_canon_ranking_free(ad->ranking);
+    ad->ranking = NULL;
+    as_status st = as_canon_classes_keep(p, cls, &ad->ranking, err);
     if (st != AS_OK) {
         free(cls);
         return st;
@@ -393,7 +401,7 @@ static as_status finish_stereo(as_adduct *ad, const as_mol *sub, const int *cand
     }
     ad->marked = 1;
     int achiral = 0;
-    st = is_achiral(p, &achiral, err);
+    st = is_achiral(p, ad->ranking, &achiral, err);
     if (st != AS_OK)
         return st;
     ad->meso = achiral;
@@ -562,7 +570,9 @@ static as_status finish_exo(as_adduct *ad, const as_mol *sub, const int cand[4],
     int *cls = malloc((size_t)p->natoms * sizeof(int));
     if (!cls)
         return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
-    as_status st = as_canon_classes(p, cls, err);
+    as_canon_ranking_free(ad->ranking);
+    ad->ranking = NULL;
+    as_status st = as_canon_classes_keep(p, cls, &ad->ranking, err);
     if (st != AS_OK) {
         free(cls);
         return st;
@@ -608,7 +618,7 @@ static as_status finish_exo(as_adduct *ad, const as_mol *sub, const int cand[4],
         return AS_OK;
     }
     int achiral = 0;
-    st = is_achiral(p, &achiral, err);
+    st = is_achiral(p, ad->ranking, &achiral, err);
     if (st != AS_OK)
         return st;
     ad->meso = achiral;

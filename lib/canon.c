@@ -1494,8 +1494,13 @@ static size_t part(size_t n, size_t sz)
  * allocation at all. */
 #define CTX_STACK 16384
 
+static void ranking_restore(canon_ctx *c, const as_canon_ranking *r);
+
+/* Lays out the arrays and computes the refined partition (c->cls and refine()'s cell
+ * arrays): from the molecule, or, when r is given (the caller has checked it fits m),
+ * copied from r. */
 static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o, void *buf,
-                          size_t cap)
+                          size_t cap, const as_canon_ranking *r)
 {
     memset(c, 0, sizeof *c);
     c->m = m;
@@ -1533,6 +1538,10 @@ static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o,
     memset(c->real_tetra, 0, nt);
     memset(c->real_db, 0, nd);
     memset(c->near_stereo, 0, na);
+    if (r) {
+        ranking_restore(c, r);
+        return AS_OK;
+    }
     int prepared = initial_ranks(c, c->cls);
     refine(c, c->cls, -1, prepared);
     return AS_OK;
@@ -1540,44 +1549,28 @@ static as_status ctx_init(canon_ctx *c, const as_mol *m, const as_canon_opts *o,
 
 as_status as_canon_classes(const as_mol *m, int *cls, as_error *err)
 {
-    as_canon_opts o;
-    as_canon_opts_init(&o);
-    canon_ctx c;
-    _Alignas(16) char buf[CTX_STACK];
-    as_status st = ctx_init(&c, m, &o, buf, sizeof buf);
-    if (st == AS_OK) {
-        /* dense 0-based class numbers in rank order (c.order is free scratch by now) */
-        int *map = c.order;
-        for (int i = 0; i < m->natoms; i++)
-            map[i] = -1;
-        for (int i = 0; i < m->natoms; i++)
-            map[c.cls[i]] = 0;
-        int k = 0;
-        for (int i = 0; i < m->natoms; i++)
-            if (map[i] == 0)
-                map[i] = k++;
-        for (int i = 0; i < m->natoms; i++)
-            cls[i] = map[c.cls[i]];
-    }
-    ctx_free(&c);
-    if (st != AS_OK)
-        return as_error_set(err, st, -1, -1, "out of memory while ranking atoms");
-    return AS_OK;
+    return as_canon_classes_keep(m, cls, NULL, err);
 }
 
-/* Folds plain explicit hydrogen atoms ([H] bonded to one heavy atom, no isotope, charge or
- * class) into their neighbour's H count, so "[H]C" and "C" write alike. Returns a new
- * molecule, or NULL when there is nothing to fold (or out of memory: *oom set). */
+/* 1 when atom i of m is a plain explicit hydrogen ([H] bonded to one heavy atom, no
+ * isotope, charge or class), which fold_hydrogens() folds. */
+static int plain_h(const as_mol *m, int i)
+{
+    const as_atom *a = &m->atoms[i];
+    return a->elem == 1 && a->isotope < 0 && a->charge == 0 && a->mapnum == 0 &&
+           a->degree == 1 && m->atoms[a->nbr[0]].elem != 1 &&
+           m->bonds[a->nbond[0]].order == AS_BOND_SINGLE;
+}
+
+/* Folds plain explicit hydrogen atoms into their neighbour's H count, so "[H]C" and "C"
+ * write alike. Returns a new molecule, or NULL when there is nothing to fold (or out of
+ * memory: *oom set). */
 static as_mol *fold_hydrogens(const as_mol *m, int *oom)
 {
     *oom = 0;
     int any = 0;
-    for (int i = 0; i < m->natoms && !any; i++) {
-        const as_atom *a = &m->atoms[i];
-        any = a->elem == 1 && a->isotope < 0 && a->charge == 0 && a->mapnum == 0 &&
-              a->degree == 1 && m->atoms[a->nbr[0]].elem != 1 &&
-              m->bonds[a->nbond[0]].order == AS_BOND_SINGLE;
-    }
+    for (int i = 0; i < m->natoms && !any; i++)
+        any = plain_h(m, i);
     if (!any)
         return NULL;
     as_mol *c = as_mol_copy(m);
@@ -1587,9 +1580,7 @@ static as_mol *fold_hydrogens(const as_mol *m, int *oom)
     }
     for (int i = c->natoms - 1; i >= 0; i--) {
         const as_atom *a = &c->atoms[i];
-        if (!(a->elem == 1 && a->isotope < 0 && a->charge == 0 && a->mapnum == 0 &&
-              a->degree == 1 && c->atoms[a->nbr[0]].elem != 1 &&
-              c->bonds[a->nbond[0]].order == AS_BOND_SINGLE))
+        if (!plain_h(c, i))
             continue;
         int heavy = a->nbr[0];
         /* a centre can hold one implicit H in its stereo record */
@@ -1619,19 +1610,21 @@ static as_mol *fold_hydrogens(const as_mol *m, int *oom)
     return c;
 }
 
-/* Canonical SMILES of one connected molecule (the work of as_canon_smiles). */
-static as_status canon_connected(const as_mol *m, const as_canon_opts *opts, char **out,
-                                 as_error *err)
+/* Canonical SMILES of one connected molecule (the work of as_canon_smiles). r: a ranking
+ * that fits m (as_canon_ranking_fits), or NULL. */
+static as_status canon_connected(const as_mol *m, const as_canon_opts *opts,
+                                 const as_canon_ranking *r, char **out, as_error *err)
 {
     int oom = 0;
-    as_mol *folded = fold_hydrogens(m, &oom);
+    /* a ranking is only kept for a molecule with no hydrogen to fold (rank_reusable) */
+    as_mol *folded = r ? NULL : fold_hydrogens(m, &oom);
     if (oom)
         return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
     if (folded)
         m = folded;
     canon_ctx c;
     _Alignas(16) char buf[CTX_STACK];
-    as_status st = ctx_init(&c, m, opts, buf, sizeof buf);
+    as_status st = ctx_init(&c, m, opts, buf, sizeof buf, r);
     if (st == AS_OK) {
         find_real_stereo(&c);
         st = c.st;
@@ -1693,8 +1686,10 @@ static int connected_small(const as_mol *m)
     return nseen == m->natoms;
 }
 
-as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out,
-                          as_error *err)
+/* as_canon_smiles; r: NULL, or a ranking that fits m (then m is one piece, with no hydrogen
+ * to fold, as rank_reusable() found when r was kept). */
+static as_status canon_smiles(const as_mol *m, const as_canon_opts *opts,
+                              const as_canon_ranking *r, char **out, as_error *err)
 {
     as_canon_opts defaults;
     if (!opts) {
@@ -1706,8 +1701,9 @@ as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out
         *out = calloc(1, 1);
         return *out ? AS_OK : as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
     }
-    if (m->natoms <= 256 && connected_small(m))
-        return canon_connected(m, opts, out, err);
+    /* a ranking is only kept for a molecule in one piece (rank_reusable) */
+    if (r || (m->natoms <= 256 && connected_small(m)))
+        return canon_connected(m, opts, r, out, err);
     /* Components are written one by one and sorted: the same string whatever order they
      * came in, and a salt of 20,000 ions costs 20,000 small canonicalisations. */
     int *comp = malloc((size_t)m->natoms * sizeof(int));
@@ -1716,7 +1712,7 @@ as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out
     int ncomp = as_mol_components(m, comp);
     if (ncomp <= 1) {
         free(comp);
-        return canon_connected(m, opts, out, err);
+        return canon_connected(m, opts, NULL, out, err);
     }
     char **parts = calloc((size_t)ncomp, sizeof(char *));
     as_status st = parts ? AS_OK : as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
@@ -1729,7 +1725,7 @@ as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out
             break;
         }
         piece->perceived = 1;
-        st = canon_connected(piece, opts, &parts[k], err);
+        st = canon_connected(piece, opts, NULL, &parts[k], err);
         as_mol_free(piece);
         if (st == AS_OK)
             total += strlen(parts[k]) + 1;
@@ -1759,6 +1755,12 @@ as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out
     return st;
 }
 
+as_status as_canon_smiles(const as_mol *m, const as_canon_opts *opts, char **out,
+                          as_error *err)
+{
+    return canon_smiles(m, opts, NULL, out, err);
+}
+
 as_status as_canon_from_text(const char *text, size_t len, const as_canon_opts *opts,
                              char **out, as_error *err)
 {
@@ -1770,4 +1772,152 @@ as_status as_canon_from_text(const char *text, size_t len, const as_canon_opts *
     st = as_canon_smiles(m, opts, out, err);
     as_mol_free(m);
     return st;
+}
+
+/* ---------------------------------------------------------------- kept rankings */
+
+/* The refined partition ctx_init computes, kept for one molecule so that its SMILES can be
+ * written later without ranking it again: refine()'s cell arrays as it left them (cls, which
+ * is also cell_of: each atom's cell start; elems in cell order; cell_len at the cell starts)
+ * and a checksum of what they were computed from. Neither the initial key nor refine() reads
+ * stereo records or the isotope/stereo writing options, so records added after the ranking
+ * was kept do not make it stale; only the atom-map option enters the key. */
+struct as_canon_ranking {
+    int n, nbonds;
+    int atom_maps;  /* 1 when map numbers were part of the initial key */
+    int part_cells; /* cells of the partition */
+    uint64_t sum;   /* graph_sum() of the molecule it was computed for */
+    int *cls, *elems, *cell_len; /* n each, in this allocation */
+};
+
+/* Checksum of everything initial_ranks() and refine() read: per atom its degree, element,
+ * charge, H count, aromatic flag, smallest ring, isotope and map number (when kept); per bond
+ * its atoms, order and aromatic flag (neighbour lists are made from the bonds; refine() only
+ * counts neighbours, so their order does not matter). With them fixed, so are what
+ * rank_reusable() tested (one piece, no hydrogen to fold). Each step h = (h ^ w) * K is
+ * one-to-one in h, so two molecules whose words differ in just one place never share the
+ * sum; other differences collide with a chance of about 2^-64. */
+static uint64_t graph_sum(const as_mol *m, int atom_maps)
+{
+    const uint64_t K = UINT64_C(0x9E3779B97F4A7C15); /* 2^64 / golden ratio, odd */
+    uint64_t h = ((uint64_t)(unsigned)m->natoms * K) ^ (uint64_t)(unsigned)m->nbonds;
+    for (int i = 0; i < m->natoms; i++) {
+        const as_atom *a = &m->atoms[i];
+        uint64_t w = (uint64_t)(a->degree & 0xff) | (uint64_t)(a->elem & 0xff) << 8 |
+                     (uint64_t)(a->charge & 0xff) << 16 | (uint64_t)(a->total_h & 0xff) << 24 |
+                     (uint64_t)(a->aromatic & 1) << 32 | (uint64_t)(a->ring_size & 0xffff) << 33 |
+                     (uint64_t)((a->isotope + 1) & 0x7fff) << 49;
+        h = (h ^ w) * K;
+        if (atom_maps)
+            h = (h ^ (uint64_t)(unsigned)a->mapnum) * K;
+    }
+    for (int b = 0; b < m->nbonds; b++) {
+        const as_bond *bd = &m->bonds[b];
+        h = (h ^ ((uint64_t)(unsigned)bd->a << 32 | (uint64_t)(unsigned)bd->b)) * K;
+        h = (h ^ ((uint64_t)(bd->order & 0xff) | (uint64_t)(bd->aromatic & 1) << 8)) * K;
+    }
+    return h;
+}
+
+/* Sets c's partition and cell arrays to r's, as refine() would have left them. */
+static void ranking_restore(canon_ctx *c, const as_canon_ranking *r)
+{
+    size_t sz = (size_t)c->n * sizeof(int);
+    cells cs = cells_of(c);
+    memcpy(c->cls, r->cls, sz);
+    memcpy(cs.cell_of, r->cls, sz);
+    memcpy(cs.elems, r->elems, sz);
+    memcpy(cs.cell_len, r->cell_len, sz);
+    for (int k = 0; k < c->n; k++)
+        cs.pos[cs.elems[k]] = k;
+    memset(cs.cnt, 0, sz);
+    memset(cs.tcount, 0, sz);
+    memset(cs.inq, 0, sz);
+    c->part_cells = r->part_cells;
+    c->part_ok = 1;
+}
+
+/* 1 when canon_connected() would rank m itself: one piece, no hydrogen to fold. */
+static int rank_reusable(const as_mol *m)
+{
+    if (m->natoms == 0)
+        return 0;
+    for (int i = 0; i < m->natoms; i++)
+        if (plain_h(m, i))
+            return 0;
+    if (m->natoms <= 256)
+        return connected_small(m);
+    int *comp = malloc((size_t)m->natoms * sizeof(int));
+    int one = comp && as_mol_components(m, comp) == 1;
+    free(comp);
+    return one;
+}
+
+as_status as_canon_classes_keep(const as_mol *m, int *cls, as_canon_ranking **ranking,
+                                as_error *err)
+{
+    if (ranking)
+        *ranking = NULL;
+    as_canon_opts o;
+    as_canon_opts_init(&o);
+    canon_ctx c;
+    _Alignas(16) char buf[CTX_STACK];
+    as_status st = ctx_init(&c, m, &o, buf, sizeof buf, NULL);
+    if (st == AS_OK) {
+        /* dense 0-based class numbers in rank order (c.order is free scratch by now) */
+        int *map = c.order;
+        for (int i = 0; i < m->natoms; i++)
+            map[i] = -1;
+        for (int i = 0; i < m->natoms; i++)
+            map[c.cls[i]] = 0;
+        int k = 0;
+        for (int i = 0; i < m->natoms; i++)
+            if (map[i] == 0)
+                map[i] = k++;
+        for (int i = 0; i < m->natoms; i++)
+            cls[i] = map[c.cls[i]];
+    }
+    if (st == AS_OK && ranking && rank_reusable(m)) {
+        size_t n = (size_t)m->natoms;
+        as_canon_ranking *r = malloc(sizeof *r + 3 * n * sizeof(int));
+        if (!r) {
+            st = AS_ERR_NOMEM;
+        } else {
+            cells cs = cells_of(&c);
+            r->n = m->natoms;
+            r->nbonds = m->nbonds;
+            r->atom_maps = o.atom_maps != 0;
+            r->part_cells = c.part_cells;
+            r->sum = graph_sum(m, r->atom_maps);
+            r->cls = (int *)(void *)(r + 1);
+            r->elems = r->cls + n;
+            r->cell_len = r->elems + n;
+            memcpy(r->cls, c.cls, n * sizeof(int));
+            memcpy(r->elems, cs.elems, n * sizeof(int));
+            memcpy(r->cell_len, cs.cell_len, n * sizeof(int));
+            *ranking = r;
+        }
+    }
+    ctx_free(&c);
+    if (st != AS_OK)
+        return as_error_set(err, st, -1, -1, "out of memory while ranking atoms");
+    return AS_OK;
+}
+
+int as_canon_ranking_fits(const as_canon_ranking *r, const as_mol *m, const as_canon_opts *opts)
+{
+    int maps = opts ? opts->atom_maps != 0 : 1;
+    return r && m && r->n == m->natoms && r->nbonds == m->nbonds && r->atom_maps == maps &&
+           graph_sum(m, maps) == r->sum;
+}
+
+as_status as_canon_smiles_ranked(const as_mol *m, const as_canon_opts *opts,
+                                 const as_canon_ranking *r, char **out, as_error *err)
+{
+    return canon_smiles(m, opts, as_canon_ranking_fits(r, m, opts) ? r : NULL, out, err);
+}
+
+void as_canon_ranking_free(as_canon_ranking *r)
+{
+    free(r);
 }

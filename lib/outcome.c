@@ -401,8 +401,10 @@ static as_status shares_for_run(const as_outcome *o, const as_site *s, const as_
     return AS_OK;
 }
 
-/* Canonical SMILES of the mirror image of m (every parity inverted) in *out. */
-static as_status mirror_smiles(const as_mol *m, char **out, as_error *err)
+/* Canonical SMILES of the mirror image of m (every parity inverted) in *out; r: m's kept
+ * ranking or NULL (the mirror image has the same graph). */
+static as_status mirror_smiles(const as_mol *m, const as_canon_ranking *r, char **out,
+                               as_error *err)
 {
     *out = NULL;
     as_mol *q = as_mol_copy(m);
@@ -410,7 +412,7 @@ static as_status mirror_smiles(const as_mol *m, char **out, as_error *err)
         return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
     for (int i = 0; i < q->ntetra; i++)
         q->tetra[i].parity = q->tetra[i].parity == AS_CCW ? AS_CW : AS_CCW;
-    as_status st = as_canon_smiles(q, NULL, out, err);
+    as_status st = as_canon_smiles_ranked(q, NULL, r, out, err);
     as_mol_free(q);
     return st;
 }
@@ -454,9 +456,9 @@ static as_status run_site(as_outcome *o, const as_mol *mol, const as_sites *site
         as_adduct *ad = &l->v[i];
         cand c;
         memset(&c, 0, sizeof c);
-        st = as_canon_smiles(ad->mol, NULL, &c.smiles, err);
+        st = as_canon_smiles_ranked(ad->mol, NULL, ad->ranking, &c.smiles, err);
         if (st == AS_OK && ad->stereo == AS_STEREO_RACEMIC && ad->marked)
-            st = mirror_smiles(ad->mol, &c.mirror, err);
+            st = mirror_smiles(ad->mol, ad->ranking, &c.mirror, err);
         if (st != AS_OK) {
             cand_free(&c);
             goto done;

@@ -66,6 +66,30 @@ static void done(run *x)
     as_mol_free(x->mol);
 }
 
+/* The ranking an adduct keeps fits its product (stereo records placed after it was taken
+ * included) and writes the same strings, `plain` and `mirror`, as a fresh ranking. Products
+ * in one piece keep one. */
+static void expect_ranked(const as_adduct *ad, const char *plain, const char *mirror)
+{
+    as_error err;
+    if (ad->path != AS_PATH_CLEAVE)
+        assert_non_null(ad->ranking);
+    if (ad->ranking)
+        assert_true(as_canon_ranking_fits(ad->ranking, ad->mol, NULL));
+    char *a = NULL, *b = NULL;
+    as_mol *q = as_mol_copy(ad->mol);
+    assert_non_null(q);
+    for (int k = 0; k < q->ntetra; k++)
+        q->tetra[k].parity = q->tetra[k].parity == AS_CCW ? AS_CW : AS_CCW;
+    assert_int_equal(as_canon_smiles_ranked(ad->mol, NULL, ad->ranking, &a, &err), AS_OK);
+    assert_int_equal(as_canon_smiles_ranked(q, NULL, ad->ranking, &b, &err), AS_OK);
+    assert_string_equal(a, plain);
+    assert_string_equal(b, mirror);
+    free(a);
+    free(b);
+    as_mol_free(q);
+}
+
 /* canonical SMILES of adduct i (or, with mirror = 1, of its mirror image too) compared
  * with the canonical form of want */
 static void expect_m(const run *x, int i, const char *want, int mirror)
@@ -81,6 +105,7 @@ static void expect_m(const run *x, int i, const char *want, int mirror)
     assert_int_equal(as_canon_smiles(q, NULL, &mir, &err), AS_OK);
     if (strcmp(got, ref) != 0 && !(mirror && strcmp(mir, ref) == 0))
         fail_msg("adduct %d is %s, expected %s (%s)", i, got, ref, want);
+    expect_ranked(&x->list->v[i], got, mir);
     as_mol_free(q);
     free(got);
     free(ref);
@@ -386,6 +411,65 @@ static void addition_should_reject_unreadable_group_with_rule_error(void **state
     as_mol_free(m);
 }
 
+/* Every product of a spread of substrates and rules (stereocentres new and kept, meso and
+ * racemic pairs, exo faces, shifts, 1,4-adducts, cleavage into two pieces) keeps a ranking
+ * that gives the string a fresh ranking gives. */
+static void adducts_should_keep_a_ranking_that_writes_the_same_string(void **state)
+{
+    (void)state;
+    static const as_rule_variant v_o3 = {"O3", NULL, NULL, NULL, "reductive", "O", 0, NULL};
+    const struct {
+        as_regio regio;
+        as_addmode mode;
+        const as_rule_variant *v;
+        const char *smi;
+    } runs[] = {
+        {AS_REGIO_NONE, AS_ADD_ANTI, &v_br2, "C/C=C/C"},
+        {AS_REGIO_NONE, AS_ADD_ANTI, &v_br2, "C/C=C\\C"},
+        {AS_REGIO_NONE, AS_ADD_ANTI, &v_br2, "C1=CCCCC1"},
+        {AS_REGIO_NONE, AS_ADD_SYN, &v_os, "CC1=CCC[C@@H](C(C)=C)C1"},
+        {AS_REGIO_NONE, AS_ADD_SYN, &v_epox, "C1CC2CC1C=C2"},
+        {AS_REGIO_NONE, AS_ADD_SYN, &v_os, "C[C@]12CC[C@H](C1)C=C2C"},
+        {AS_REGIO_BORANE, AS_ADD_SYN, &v_bh3, "CC1=CCCCC1"},
+        {AS_REGIO_BORANE, AS_ADD_SYN, &v_bh3, "C=CC[C@@H](C)O"},
+        {AS_REGIO_CATION, AS_ADD_NONE, &v_hcl, "C=CC(C)(C)C"},
+        {AS_REGIO_CATION, AS_ADD_NONE, &v_hbr, "C=CC=C"},
+        {AS_REGIO_CATION, AS_ADD_NONE, &v_hbr, "CCCC=CC"},
+        {AS_REGIO_RADICAL, AS_ADD_NONE, &v_rbr, "C/C=C/c1ccccc1"},
+        {AS_REGIO_CLEAVE, AS_ADD_NONE, &v_o3, "CC(C)=CCC/C(C)=C/CO"},
+    };
+    int kept = 0, pieces = 0;
+    for (size_t i = 0; i < sizeof runs / sizeof runs[0]; i++) {
+        as_rule r = rule(runs[i].regio, runs[i].mode, 1, 1, runs[i].v);
+        run x = go(runs[i].smi, &r, runs[i].v);
+        assert_true(x.list->n >= 1);
+        for (int k = 0; k < x.list->n; k++) {
+            const as_adduct *ad = &x.list->v[k];
+            char *plain = NULL, *mir = NULL;
+            as_error err;
+            as_mol *q = as_mol_copy(ad->mol);
+            assert_non_null(q);
+            for (int t = 0; t < q->ntetra; t++)
+                q->tetra[t].parity = q->tetra[t].parity == AS_CCW ? AS_CW : AS_CCW;
+            assert_int_equal(as_canon_smiles(ad->mol, NULL, &plain, &err), AS_OK);
+            assert_int_equal(as_canon_smiles(q, NULL, &mir, &err), AS_OK);
+            /* cleavage leaves two pieces: written one by one, no ranking kept */
+            if (ad->path == AS_PATH_CLEAVE && strchr(plain, '.')) {
+                assert_null(ad->ranking);
+                pieces++;
+            }
+            kept += ad->ranking != NULL;
+            expect_ranked(ad, plain, mir);
+            free(plain);
+            free(mir);
+            as_mol_free(q);
+        }
+        done(&x);
+    }
+    assert_int_equal(pieces, 1);
+    assert_true(kept >= 20);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -408,6 +492,7 @@ int main(void)
         cmocka_unit_test(addition_should_not_shift_cation_to_bridgehead),
         cmocka_unit_test(addition_should_not_edit_substrate),
         cmocka_unit_test(addition_should_reject_unreadable_group_with_rule_error),
+        cmocka_unit_test(adducts_should_keep_a_ranking_that_writes_the_same_string),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

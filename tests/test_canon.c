@@ -11,6 +11,9 @@
 #include <string.h>
 
 #include "addsite/canon.h"
+#include "addsite/smiles.h"
+
+#include <stdio.h>
 
 static char *canon(const char *s)
 {
@@ -135,6 +138,184 @@ static void canon_should_not_depend_on_atom_order_on_every_path(void **state)
     }
 }
 
+static as_mol *parse(const char *s)
+{
+    as_mol *m = NULL;
+    as_error err;
+    if (as_smiles_parse(s, strlen(s), &m, &err) != AS_OK)
+        fail_msg("'%s' should parse: %s", s, err.msg);
+    return m;
+}
+
+/* m's string through as_canon_smiles and through as_canon_smiles_ranked with r must match. */
+static void expect_ranked_same(const as_mol *m, const as_canon_opts *o, const as_canon_ranking *r,
+                               const char *what)
+{
+    char *plain = NULL, *ranked = NULL;
+    as_error err;
+    assert_int_equal(as_canon_smiles(m, o, &plain, &err), AS_OK);
+    assert_int_equal(as_canon_smiles_ranked(m, o, r, &ranked, &err), AS_OK);
+    if (strcmp(plain, ranked) != 0)
+        fail_msg("%s: written fresh '%s', from the kept ranking '%s'", what, plain, ranked);
+    free(plain);
+    free(ranked);
+}
+
+/* Keeps the ranking of m and checks, for m, its mirror image (every @/@@ inverted) and m
+ * without any stereo record, under the default, no-stereo and no-isotope options, that the
+ * ranking fits and gives the string written from scratch. Returns 1 when a ranking was kept. */
+static int check_kept_ranking(as_mol *m, const char *what)
+{
+    int *cls = malloc((size_t)(m->natoms ? m->natoms : 1) * sizeof(int));
+    assert_non_null(cls);
+    as_canon_ranking *r = NULL;
+    as_error err;
+    assert_int_equal(as_canon_classes_keep(m, cls, &r, &err), AS_OK);
+    /* the classes are those of as_canon_classes */
+    int *cls2 = malloc((size_t)(m->natoms ? m->natoms : 1) * sizeof(int));
+    assert_non_null(cls2);
+    assert_int_equal(as_canon_classes(m, cls2, &err), AS_OK);
+    assert_memory_equal(cls, cls2, (size_t)m->natoms * sizeof(int));
+    free(cls);
+    free(cls2);
+    if (!r)
+        return 0;
+    as_canon_opts o[3];
+    for (int k = 0; k < 3; k++)
+        as_canon_opts_init(&o[k]);
+    o[1].stereo = 0;
+    o[2].isotopes = 0;
+    as_mol *mirror = as_mol_copy(m), *flat = as_mol_copy(m);
+    assert_non_null(mirror);
+    assert_non_null(flat);
+    for (int i = 0; i < mirror->ntetra; i++)
+        mirror->tetra[i].parity = mirror->tetra[i].parity == AS_CCW ? AS_CW : AS_CCW;
+    for (int i = 0; i < mirror->ndbs; i++)
+        mirror->dbs[i].cis = !mirror->dbs[i].cis;
+    flat->ntetra = flat->ndbs = 0;
+    const as_mol *forms[3] = {m, mirror, flat};
+    for (int f = 0; f < 3; f++)
+        for (int k = 0; k < 3; k++) {
+            if (!as_canon_ranking_fits(r, forms[f], &o[k]))
+                fail_msg("%s: the kept ranking should fit form %d, options %d", what, f, k);
+            expect_ranked_same(forms[f], &o[k], r, what);
+        }
+    as_mol_free(mirror);
+    as_mol_free(flat);
+    as_canon_ranking_free(r);
+    return 1;
+}
+
+/* Every molecule of the RDKit cross-check set (tests/data/canon_set.smi: stereocentres,
+ * E/Z bonds, meso and ring stereo, fused and bridged rings, charges, isotopes). */
+static void kept_ranking_should_write_the_same_string_as_a_fresh_one(void **state)
+{
+    (void)state;
+    const char *src = getenv("AS_SOURCE_DIR");
+    if (!src)
+        fail_msg("AS_SOURCE_DIR is not set (run the test through ctest)");
+    char path[4096];
+    snprintf(path, sizeof path, "%s/tests/data/canon_set.smi", src);
+    FILE *f = fopen(path, "r");
+    if (!f)
+        fail_msg("cannot open %s", path);
+    char line[8192];
+    int n = 0, kept = 0, lineno = 0;
+    while (fgets(line, sizeof line, f)) {
+        lineno++;
+        if (line[0] == '#' || line[0] == '\n')
+            continue;
+        line[strcspn(line, "\t\r\n")] = '\0';
+        as_mol *m = parse(line);
+        char what[64];
+        snprintf(what, sizeof what, "canon_set.smi line %d", lineno);
+        kept += check_kept_ranking(m, what);
+        n++;
+        as_mol_free(m);
+    }
+    fclose(f);
+    /* the file holds 3,166 molecules; rankings are not kept for salts (several pieces) */
+    print_message("%d molecules, %d rankings kept\n", n, kept);
+    assert_true(n >= 3000);
+    assert_true(kept >= n * 9 / 10);
+}
+
+/* The other ranking paths: over 64 atoms (two-word keys), a differing isotope, a heap block
+ * (past the stack buffer) and over 256 atoms (connectivity found by components). */
+static void kept_ranking_should_fit_on_every_ranking_path(void **state)
+{
+    (void)state;
+    const int len[] = {3, 60, 66, 150, 300};
+    for (size_t i = 0; i < sizeof len / sizeof len[0]; i++) {
+        char *a = chain("O[C@@H](C)", len[i], "[C@H](N)C=C/C=C/[13CH3]");
+        as_mol *m = parse(a);
+        assert_int_equal(check_kept_ranking(m, a), 1);
+        as_mol_free(m);
+        free(a);
+    }
+}
+
+/* No ranking is kept where the writer would not use it: salts are written piece by piece,
+ * and explicit [H] atoms are folded into their neighbour first. */
+static void kept_ranking_should_be_absent_where_unused(void **state)
+{
+    (void)state;
+    const char *in[] = {"[Na+].[O-]C(C)=O", "[H]C([H])([H])O", "CCO.O"};
+    for (size_t i = 0; i < sizeof in / sizeof in[0]; i++) {
+        as_mol *m = parse(in[i]);
+        assert_int_equal(check_kept_ranking(m, in[i]), 0);
+        expect_ranked_same(m, NULL, NULL, in[i]);
+        as_mol_free(m);
+    }
+}
+
+/* A ranking kept for one molecule must not be used for another with as many atoms (other
+ * element, charge, H count, bond order, connection, isotope, map number, atom order), nor
+ * when map numbers are dropped (they are part of the ranking's initial key). */
+static void kept_ranking_of_another_molecule_should_not_be_used(void **state)
+{
+    (void)state;
+    const struct {
+        const char *kept, *other;
+    } pair[] = {
+        {"CCO", "CCN"},
+        {"CCO", "CC[O-]"},
+        {"CCO", "OCC"},
+        {"CC=CC", "C=CCC"},
+        {"CC(C)CC", "CCCCC"},
+        {"C1CCCC1C", "CC1CCCC1"},
+        {"C[C@H](O)CC", "C[C@H](O)C[13CH3]"},
+        {"[CH3:1]CO", "[CH3:2]CO"},
+        {"c1ccccc1C", "C1=CC=CC=C1C"}, /* same molecule, atoms in the same order: fits */
+    };
+    for (size_t i = 0; i < sizeof pair / sizeof pair[0]; i++) {
+        as_mol *a = parse(pair[i].kept), *b = parse(pair[i].other);
+        int *cls = malloc((size_t)a->natoms * sizeof(int));
+        assert_non_null(cls);
+        as_canon_ranking *r = NULL;
+        as_error err;
+        assert_int_equal(as_canon_classes_keep(a, cls, &r, &err), AS_OK);
+        assert_non_null(r);
+        assert_int_equal(a->natoms, b->natoms);
+        int same = i == sizeof pair / sizeof pair[0] - 1;
+        if (as_canon_ranking_fits(r, b, NULL) != same)
+            fail_msg("ranking of %s %s %s", pair[i].kept, same ? "should fit" : "should not fit",
+                     pair[i].other);
+        expect_ranked_same(b, NULL, r, pair[i].other);
+        assert_true(as_canon_ranking_fits(r, a, NULL));
+        as_canon_opts o;
+        as_canon_opts_init(&o);
+        o.atom_maps = 0;
+        assert_false(as_canon_ranking_fits(r, a, &o));
+        expect_ranked_same(a, &o, r, pair[i].kept);
+        assert_false(as_canon_ranking_fits(NULL, a, NULL));
+        as_canon_ranking_free(r);
+        free(cls);
+        as_mol_free(a);
+        as_mol_free(b);
+    }
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -144,6 +325,10 @@ int main(void)
         cmocka_unit_test(canon_should_be_idempotent),
         cmocka_unit_test(canon_should_drop_maps_on_request),
         cmocka_unit_test(canon_should_not_depend_on_atom_order_on_every_path),
+        cmocka_unit_test(kept_ranking_should_write_the_same_string_as_a_fresh_one),
+        cmocka_unit_test(kept_ranking_should_fit_on_every_ranking_path),
+        cmocka_unit_test(kept_ranking_should_be_absent_where_unused),
+        cmocka_unit_test(kept_ranking_of_another_molecule_should_not_be_used),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

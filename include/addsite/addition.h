@@ -6,10 +6,12 @@
  * substrate are kept in every product, added atoms come after them).
  *
  * Memory: as_addition_run returns a new list; the caller frees it with as_adducts_free,
- * which frees every product molecule in it. Products borrow nothing from the inputs. */
+ * which frees every product molecule (and kept ranking) in it. Products borrow nothing from
+ * the inputs. */
 #ifndef ADDSITE_ADDITION_H
 #define ADDSITE_ADDITION_H
 
+#include "addsite/canon.h"
 #include "addsite/mol.h"
 #include "addsite/rules.h"
 #include "addsite/sites.h"
@@ -70,6 +72,11 @@ typedef struct as_adduct {
     int meso;             /* 1 when the product is achiral although it has stereocentres */
     int exo;              /* 1 when the groups were placed on the exo face of a
                              norbornene-type C=C (site face AS_FACE_EXO, rule facial "exo") */
+    as_canon_ranking *ranking; /* mol's refined canonical ranking, taken when its
+                             stereocentres were decided (before the new @/@@ records, which
+                             it does not depend on), or NULL; owned, freed with the adduct.
+                             Pass it to as_canon_smiles_ranked to write mol without ranking
+                             it again (it is checked against mol there) */
 } as_adduct;
 
 typedef struct as_adducts {
@@ -107,7 +114,7 @@ as_status as_addition_place(const as_mol *sub, const as_sites *sites, int site, 
                             const as_rule *rule, const as_rule_variant *variant,
                             as_addmode mode, as_adduct *out, as_error *err);
 
-/* Frees what one adduct owns (its molecule) and zeroes it. */
+/* Frees what one adduct owns (its molecule and ranking) and zeroes it. */
 void as_adduct_clear(as_adduct *a);
 void as_adducts_free(as_adducts *l);
 
