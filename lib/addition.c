@@ -307,6 +307,53 @@ static int is_centre(const as_mol *p, const int *cls, int c)
     return 1;
 }
 
+/* 1 when ring atom c (in ring r of p, ring order) is a cis/trans site without being a
+ * stereocentre: an sp3 carbon whose two neighbours in the ring are alike (same class) and
+ * whose two other substituents (H counted) differ — C4 of a 4-substituted cyclohexanol. */
+static int ring_cis_trans_site(const as_mol *p, const int *cls, int c, int r)
+{
+    const as_atom *a = &p->atoms[c];
+    if (a->elem != 6 || a->aromatic || a->total_h > 1 || a->degree + a->total_h != 4)
+        return 0;
+    int s = p->ring_start[r], e = p->ring_start[r + 1], len = e - s, at = -1;
+    for (int i = s; i < e; i++)
+        if (p->ring_atoms[i] == c)
+            at = i - s;
+    if (at < 0 || len < 4)
+        return 0;
+    int prev = p->ring_atoms[s + (at + len - 1) % len], next = p->ring_atoms[s + (at + 1) % len];
+    if (cls[prev] != cls[next])
+        return 0;
+    int other[2], no = 0;
+    for (int i = 0; i < a->degree; i++) {
+        if (p->bonds[a->nbond[i]].order != 1)
+            return 0;
+        int b = a->nbr[i];
+        if (b != prev && b != next && no < 2)
+            other[no++] = b;
+    }
+    if (a->total_h == 1)
+        return no == 1;
+    return no == 2 && cls[other[0]] != cls[other[1]];
+}
+
+/* 1 when one of the atoms cand[0..n-1] is a ring cis/trans site and another atom of the same
+ * ring is one too, so the product is a pair of cis/trans isomers. */
+static int ring_cis_trans(const as_mol *p, const int *cls, const int *cand, int n)
+{
+    for (int r = 0; r < p->nrings; r++)
+        for (int i = 0; i < n; i++) {
+            if (cand[i] < 0 || !ring_cis_trans_site(p, cls, cand[i], r))
+                continue;
+            for (int k = p->ring_start[r]; k < p->ring_start[r + 1]; k++) {
+                int b = p->ring_atoms[k];
+                if (b != cand[i] && ring_cis_trans_site(p, cls, b, r))
+                    return 1;
+            }
+        }
+    return 0;
+}
+
 /* 1 when p equals its mirror image (canonical SMILES with all parities inverted). r: p's
  * kept ranking or NULL (the mirror image has the same graph). */
 static as_status is_achiral(const as_mol *p, const as_canon_ranking *r, int *achiral,
@@ -373,11 +420,14 @@ static as_status finish_stereo(as_adduct *ad, const as_mol *sub, const int *cand
         if (!mine && (as_mol_find_tetra(p, i) >= 0 || is_centre(p, cls, i)))
             other = 1;
     }
+    ad->cis_trans = k == 0 && p->ntetra == 0 && ring_cis_trans(p, cls, cand, n);
     free(cls);
     int chiral_sub = sub->ntetra > 0 || other;
     ad->new_centres = k;
     if (k == 0) {
-        ad->stereo = p->ntetra > 0 ? AS_STEREO_SINGLE : AS_STEREO_NONE;
+        ad->stereo = p->ntetra > 0   ? AS_STEREO_SINGLE
+                     : ad->cis_trans ? AS_STEREO_DIASTEREOMERS
+                                     : AS_STEREO_NONE;
         return AS_OK;
     }
     if (k == 1 || chiral_sub || nrec == 0) {

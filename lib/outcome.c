@@ -673,8 +673,9 @@ static int rationale_mechanism(as_outcome *o, const as_adducts *l)
         return 0;
     int c1 = pref->first_atom, c2 = pref->second_atom;
     const as_site_end *e1 = end_at(s, c1), *e2 = end_at(s, c2);
-    /* symmetric C=C: the two orientations were merged as the enantiomers of one product */
-    int one_product = o->nproducts == 1 && o->products[0].enantiomers_merged;
+    /* symmetric C=C: both orientations gave one product (the same molecule, or the two
+     * enantiomers of one product, merged) */
+    int one_product = o->nproducts == 1;
     switch (r->regio) {
     case AS_REGIO_CATION:
         if (pref->ends_alike) {
@@ -836,6 +837,11 @@ static int rationale_mechanism(as_outcome *o, const as_adducts *l)
                 : s->geometry == AS_GEOM_TRANS ? "trans"
                                                : "",
                 pref->meso ? "meso (achiral)" : "racemic (both enantiomers)"))
+            return -1;
+    } else if (pref->cis_trans) {
+        if (say(o, "No new stereocentre, but the product's ring now carries substituents that "
+                   "can be cis or trans to each other: it forms as a mixture of the two "
+                   "isomers, not assigned here."))
             return -1;
     } else if (pref->new_centres == 1 && pref->stereo == AS_STEREO_RACEMIC) {
         if (say(o, "One new stereocentre forms from an achiral substrate: the product is "

@@ -10,6 +10,9 @@ when the published outcome is meso. The `stereo` word of the JSON (racemic, meso
 diastereomers) is checked too. A racemate is written as one enantiomer, so for racemic
 products either enantiomer's labels are accepted.
 
+Ring products whose substituents can be cis or trans without a stereocentre (4-substituted
+cyclohexyl) are checked against RDKit's stereo perception (Chem.FindPotentialStereo).
+
 Bridged bicyclic substrates (norbornene) are checked in three dimensions instead: RDKit
 embeds the product (ETKDG) and the new C-O / C-D / C-B bond must point to the same side of
 the ring as the one-carbon (methano) bridge: the exo face.
@@ -136,6 +139,25 @@ EXO_CASES = [
     ("X08", "CC12CCC(C1)C=C2", "mCPBA, CH2Cl2", "racemic",
      "1-methylnorbornene: exo epoxide, the bridgehead methyl points away from both faces "
      "(common practice, from memory)"),
+]
+
+
+# Ring cis/trans without stereocentres: (id, substrate, reagents, product, stereo word,
+# source). The product must be listed with that word, and RDKit's stereo perception
+# (Chem.FindPotentialStereo, the outside reference) must find potential stereo in it exactly
+# when the word is not "none".
+RING_CASES = [
+    ("R01", "CC1CCC=CC1", "HBr", "CC1CCC(Br)CC1", "diastereomers",
+     "1-bromo-4-methylcyclohexane exists as cis and trans isomers; HBr addition through the "
+     "cation does not control them (common practice)"),
+    ("R02", "CC1(C)CCC=CC1", "HBr", "CC1(C)CCC(Br)CC1", "none",
+     "1-bromo-4,4-dimethylcyclohexane has no stereoisomers (common practice)"),
+    ("R03", "C1CCC=CC1", "HBr", "BrC1CCCCC1", "none",
+     "bromocyclohexane has no stereoisomers (common practice)"),
+    ("R04", "CC1CC=C1", "HBr", "CC1CC(Br)C1", "diastereomers",
+     "1-bromo-3-methylcyclobutane exists as cis and trans isomers (common practice)"),
+    ("R05", "C=CC1CCC=CC1", "HBr", "C=CC1CCC(Br)CC1", "diastereomers",
+     "4-bromo-1-vinylcyclohexane: cis and trans (common practice)"),
 ]
 
 
@@ -313,6 +335,26 @@ def main():
             problems += exo_problems(p["smiles"])
         if not any("exo face" in r for r in out["rationale"]):
             problems.append("the rationale does not name the exo face")
+        report(cid, problems, "%s + %s" % (smi, reagents))
+
+    for cid, smi, reagents, want, word, _source in RING_CASES:
+        out, errtext = run(smi, reagents)
+        if out is None:
+            report(cid, ["addsite failed: %s" % errtext], smi)
+            continue
+        key = Chem.MolToSmiles(Chem.MolFromSmiles(want))
+        hits = [p for p in out["products"]
+                if Chem.MolToSmiles(Chem.MolFromSmiles(p["smiles"])) == key]
+        problems = []
+        if not hits:
+            problems.append("%s not among the products" % want)
+        for p in hits[:1]:
+            if p["stereo"] != word:
+                problems.append("%s: stereo %r, expected %r" % (p["smiles"], p["stereo"], word))
+            rd = len(Chem.FindPotentialStereo(Chem.MolFromSmiles(p["smiles"])))
+            if (rd > 0) != (word != "none"):
+                problems.append("%s: RDKit finds %d potential stereo elements" % (
+                    p["smiles"], rd))
         report(cid, problems, "%s + %s" % (smi, reagents))
 
     print("%d passed, %d failed" % (passed, failed))

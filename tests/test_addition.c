@@ -134,6 +134,51 @@ static void addition_should_put_bromide_on_secondary_carbon_of_propene(void **st
     done(&x);
 }
 
+/* cis/trans without stereocentres (common practice; RDKit's stereoisomer enumeration gives
+ * two isomers for CC1CCC(Br)CC1 and one for CC1(C)CCC(Br)CC1, see check_stereo_cip.py):
+ * HBr on 4-methylcyclohexene gives 1-bromo-4-methylcyclohexane as a cis/trans mixture, on
+ * 4,4-dimethylcyclohexene and cyclohexene a product with no stereo. */
+static void addition_should_flag_ring_cis_trans_without_stereocentres(void **state)
+{
+    (void)state;
+    as_rule r = rule(AS_REGIO_CATION, AS_ADD_NONE, 1, 1, &v_hbr);
+    static const struct {
+        const char *substrate, *product;
+        int cis_trans;
+        as_stereo stereo;
+    } want[] = {
+        {"CC1CCC=CC1", "CC1CCC(Br)CC1", 1, AS_STEREO_DIASTEREOMERS},
+        {"CC1(C)CCC=CC1", "CC1(C)CCC(Br)CC1", 0, AS_STEREO_NONE},
+        {"C1CCC=CC1", "BrC1CCCCC1", 0, AS_STEREO_NONE},
+        {"CC1CC=C1", "CC1CC(Br)C1", 1, AS_STEREO_DIASTEREOMERS}, /* 1,3 on cyclobutane */
+    };
+    for (size_t k = 0; k < sizeof want / sizeof want[0]; k++) {
+        run x = go(want[k].substrate, &r, &v_hbr);
+        int found = 0;
+        for (int i = 0; i < x.list->n; i++) {
+            char *got = NULL, *ref = NULL;
+            as_error err;
+            assert_int_equal(as_canon_smiles(x.list->v[i].mol, NULL, &got, &err), AS_OK);
+            assert_int_equal(as_canon_from_text(want[k].product, strlen(want[k].product), NULL,
+                                                &ref, &err),
+                             AS_OK);
+            if (strcmp(got, ref) == 0) {
+                found = 1;
+                if (x.list->v[i].cis_trans != want[k].cis_trans ||
+                    x.list->v[i].stereo != want[k].stereo)
+                    fail_msg("%s: %s has cis_trans %d stereo %d", want[k].substrate, got,
+                             x.list->v[i].cis_trans, (int)x.list->v[i].stereo);
+                assert_int_equal(x.list->v[i].new_centres, 0);
+            }
+            free(got);
+            free(ref);
+        }
+        if (!found)
+            fail_msg("%s: no adduct %s", want[k].substrate, want[k].product);
+        done(&x);
+    }
+}
+
 /* Kharasch & Mayo 1933 (from memory): peroxide HBr gives 1-bromopropane. */
 static void addition_should_put_bromine_radical_on_terminal_carbon(void **state)
 {
@@ -493,6 +538,7 @@ int main(void)
         cmocka_unit_test(addition_should_not_edit_substrate),
         cmocka_unit_test(addition_should_reject_unreadable_group_with_rule_error),
         cmocka_unit_test(adducts_should_keep_a_ranking_that_writes_the_same_string),
+        cmocka_unit_test(addition_should_flag_ring_cis_trans_without_stereocentres),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -68,6 +68,10 @@ typedef struct as_adduct {
     int rearranged;       /* 1 for the shift paths */
     as_stereo stereo;
     int new_centres;      /* stereocentres created by the addition */
+    int cis_trans;        /* 1 when the addition leaves two ring atoms whose substituents
+                             can be cis or trans to each other without either being a
+                             stereocentre (4-substituted cyclohexyl products): stereo is
+                             then "diastereomers" with no new centre */
     int marked;           /* 1 when their relative configuration is written with @/@@ */
     int meso;             /* 1 when the product is achiral although it has stereocentres */
     int exo;              /* 1 when the groups were placed on the exo face of a
