@@ -242,9 +242,17 @@ static const char *regio_word(const as_site *s, const as_adduct *ad, const as_ru
     if (ad->path != AS_PATH_DIRECT || r->regio == AS_REGIO_NONE || r->regio == AS_REGIO_CLEAVE)
         return "n/a";
     int fh = is_h_group(v->first), shh = is_h_group(v->second);
-    if (fh == shh)
+    int x;
+    if (!fh && !shh && r->regio == AS_REGIO_CATION && v->first && v->second &&
+        strcmp(v->first, v->second) != 0) {
+        /* halohydrin, alkoxyhalide: the nucleophile (second group, OH or OR) takes the
+         * cation end; Markovnikov when that is the more substituted carbon (common practice) */
+        x = ad->second_atom;
+    } else if (fh == shh) {
         return "n/a";
-    int x = fh ? ad->second_atom : ad->first_atom;
+    } else {
+        x = fh ? ad->second_atom : ad->first_atom;
+    }
     const as_site_end *ex = s->end[0].atom == x ? &s->end[0] : &s->end[1];
     const as_site_end *ey = s->end[0].atom == x ? &s->end[1] : &s->end[0];
     if (ex->n_heavy > ey->n_heavy)

@@ -85,6 +85,27 @@ static void outcome_should_report_markovnikov_major_for_propene_hbr(void **state
     as_outcome_free(o);
 }
 
+/* Halohydrin orientation: OH to the more substituted carbon, Br to the CH2 — the
+ * Markovnikov sense (McMurry, Organic Chemistry, 8th ed., Ch. 8, from memory); the methyl
+ * ether from NBS in methanol likewise; Br2 alone adds the same group to both ends (n/a). */
+static void outcome_should_call_halohydrin_orientation_markovnikov(void **state)
+{
+    (void)state;
+    as_outcome *o = predict("CC(C)=C", "NBS, H2O", NULL);
+    assert_true(same_smiles(o->products[0].smiles, "CC(C)(O)CBr"));
+    assert_string_equal(o->products[0].regio, "markovnikov");
+    as_outcome_free(o);
+    o = predict("C=CC", "NBS, MeOH", NULL);
+    assert_true(same_smiles(o->products[0].smiles, "CC(CBr)OC"));
+    assert_string_equal(o->products[0].regio, "markovnikov");
+    assert_true(o->nproducts >= 2);
+    assert_string_equal(o->products[1].regio, "anti-markovnikov");
+    as_outcome_free(o);
+    o = predict("C=CC", "Br2, CH2Cl2", NULL);
+    assert_string_equal(o->products[0].regio, "n/a");
+    as_outcome_free(o);
+}
+
 /* Brown & Zweifel 1960 (from memory), the rule table's styrene figure: 80:20. */
 static void outcome_should_use_published_figure_for_styrene_hydroboration(void **state)
 {
@@ -273,6 +294,7 @@ int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(outcome_should_report_markovnikov_major_for_propene_hbr),
+        cmocka_unit_test(outcome_should_call_halohydrin_orientation_markovnikov),
         cmocka_unit_test(outcome_should_use_published_figure_for_styrene_hydroboration),
         cmocka_unit_test(outcome_should_report_mixture_for_hex_2_ene),
         cmocka_unit_test(outcome_should_follow_temperature_for_butadiene),
