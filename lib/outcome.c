@@ -852,8 +852,12 @@ static int rationale_mechanism(as_outcome *o, const as_adducts *l)
                    "isomers, not assigned here."))
             return -1;
     } else if (pref->new_centres == 1 && pref->stereo == AS_STEREO_RACEMIC) {
-        if (say(o, "One new stereocentre forms from an achiral substrate: the product is "
-                   "racemic."))
+        /* with a shift listed, the sentence is about the direct product only */
+        int shifted = 0;
+        for (int i = 0; i < o->nproducts; i++)
+            shifted |= o->products[i].rearranged;
+        if (say(o, "One new stereocentre forms from an achiral substrate: the %s is racemic.",
+                shifted && !pref->rearranged ? "unrearranged product" : "product"))
             return -1;
     } else if (pref->new_centres >= 2 && r->stereo == AS_ADD_NONE) {
         if (say(o, "No stereo control (%s): the new stereocentres form as a mixture of "
