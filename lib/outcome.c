@@ -604,8 +604,11 @@ static int rationale_sites(as_outcome *o)
             ss->n, list))
         return -1;
     int boranes = steric_ranking(o->rule, o->variant);
-    if (o->nreact >= ss->n || (o->nreact == 1 && ss->n == 2 && s0->conj_site >= 0 &&
-                               o->rule->conjugate))
+    if (o->nreact == 1 && ss->n == 2 && s0->conj_site >= 0 && o->rule->conjugate)
+        return say(o, "The two C=C are conjugated: with %.0f equivalent(s) the diene reacts "
+                      "once, as one unit (1,2- or 1,4-addition).",
+                   o->equiv);
+    if (o->nreact >= ss->n)
         return say(o, "With %.0f equivalent(s) every C=C reacts.", o->equiv);
     /* name the runner-up for comparison */
     int runner = -1;
