@@ -62,5 +62,8 @@ AS_INTERNAL int as_fmt_ll(char *buf, long long v);
 /* vsnprintf with the same bytes in the C locale, done here for formats whose conversions are
  * all %s, %d, %.0f to %.3f and %%; any other format goes to vsnprintf whole. */
 AS_INTERNAL int as_fmt_v(char *buf, size_t cap, const char *fmt, va_list ap);
+/* The text as_fmt_v makes, in a new malloc'ed string (NULL when out of memory). Formats once
+ * into a stack buffer and a second time only when the text is longer than that. */
+AS_INTERNAL char *as_fmt_alloc_v(const char *fmt, va_list ap);
 
 #endif

@@ -435,3 +435,22 @@ int as_fmt_ll(char *buf, long long v)
     *p = '\0';
     return (int)(p - buf);
 }
+
+char *as_fmt_alloc_v(const char *fmt, va_list ap)
+{
+    char tmp[512];
+    va_list cp;
+    va_copy(cp, ap);
+    int n = as_fmt_v(tmp, sizeof tmp, fmt, cp);
+    va_end(cp);
+    if (n < 0)
+        return NULL;
+    char *p = malloc((size_t)n + 1);
+    if (!p)
+        return NULL;
+    if ((size_t)n < sizeof tmp)
+        memcpy(p, tmp, (size_t)n + 1);
+    else
+        as_fmt_v(p, (size_t)n + 1, fmt, ap);
+    return p;
+}

@@ -95,33 +95,12 @@ static char *xstrdup(const char *s)
     return p;
 }
 
-/* Formats once into a stack buffer (as_fmt_v: the %.1f of shares without printf's cost) and
- * a second time only when the text is longer than that. */
-static char *vfmt(const char *fmt, va_list ap)
-{
-    char tmp[512];
-    va_list cp;
-    va_copy(cp, ap);
-    int n = as_fmt_v(tmp, sizeof tmp, fmt, cp);
-    va_end(cp);
-    if (n < 0)
-        return NULL;
-    char *p = malloc((size_t)n + 1);
-    if (!p)
-        return NULL;
-    if ((size_t)n < sizeof tmp)
-        memcpy(p, tmp, (size_t)n + 1);
-    else
-        as_fmt_v(p, (size_t)n + 1, fmt, ap);
-    return p;
-}
-
 static char *fmt(const char *f, ...) AS_PRINTF(1, 2);
 static char *fmt(const char *f, ...)
 {
     va_list ap;
     va_start(ap, f);
-    char *p = vfmt(f, ap);
+    char *p = as_fmt_alloc_v(f, ap);
     va_end(ap);
     return p;
 }
@@ -132,7 +111,7 @@ static int say(as_outcome *o, const char *f, ...)
 {
     va_list ap;
     va_start(ap, f);
-    char *s = vfmt(f, ap);
+    char *s = as_fmt_alloc_v(f, ap);
     va_end(ap);
     if (!s)
         return -1;

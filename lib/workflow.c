@@ -142,22 +142,9 @@ static char *xstrdup(const char *s)
 static char *xprintf(const char *fmt, ...) AS_PRINTF(1, 2);
 static char *xprintf(const char *fmt, ...)
 {
-    char tmp[512];
     va_list ap;
     va_start(ap, fmt);
-    int n = as_fmt_v(tmp, sizeof tmp, fmt, ap);
-    va_end(ap);
-    if (n < 0)
-        return NULL;
-    char *s = malloc((size_t)n + 1);
-    if (!s)
-        return NULL;
-    if ((size_t)n < sizeof tmp) {
-        memcpy(s, tmp, (size_t)n + 1);
-        return s;
-    }
-    va_start(ap, fmt);
-    as_fmt_v(s, (size_t)n + 1, fmt, ap);
+    char *s = as_fmt_alloc_v(fmt, ap);
     va_end(ap);
     return s;
 }
