@@ -377,6 +377,23 @@ static as_status is_achiral(const as_mol *p, const as_canon_ranking *r, int *ach
     return st;
 }
 
+/* Symmetry classes of the adduct's product (a new array in *cls, caller frees), keeping the
+ * ranking they came from in ad->ranking for writing the product later. */
+static as_status take_classes(as_adduct *ad, int **cls, as_error *err)
+{
+    *cls = malloc((size_t)ad->mol->natoms * sizeof(int));
+    if (!*cls)
+        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
+    as_canon_ranking_free(ad->ranking);
+    ad->ranking = NULL;
+    as_status st = as_canon_classes_keep(ad->mol, *cls, &ad->ranking, err);
+    if (st != AS_OK) {
+        free(*cls);
+        *cls = NULL;
+    }
+    return st;
+}
+
 /* Counts the new stereocentres among cand[0..n-1] of perceived product p and sets the stereo
  * label; when `place` is set (controlled syn/anti with known geometry) the caller has
  * already computed records in rec[] for c1/c2 which are added when kept. */
@@ -384,16 +401,10 @@ static as_status finish_stereo(as_adduct *ad, const as_mol *sub, const int *cand
                                const as_tetra *rec, int nrec, as_error *err)
 {
     as_mol *p = ad->mol;
-    int *cls = malloc((size_t)p->natoms * sizeof(int));
-    if (!cls)
-        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
-    as_canon_ranking_free(ad->ranking);
-    ad->ranking = NULL;
-    as_status st = as_canon_classes_keep(p, cls, &ad->ranking, err);
-    if (st != AS_OK) {
-        free(cls);
+    int *cls = NULL;
+    as_status st = take_classes(ad, &cls, err);
+    if (st != AS_OK)
         return st;
-    }
     int k = 0, centre[4] = {-1, -1, -1, -1};
     for (int i = 0; i < n; i++) {
         if (cand[i] < 0 || as_mol_find_tetra(p, cand[i]) >= 0)
@@ -617,16 +628,10 @@ static as_status finish_exo(as_adduct *ad, const as_mol *sub, const int cand[4],
                             const as_tetra *rec, int nrec, int anchor, as_error *err)
 {
     as_mol *p = ad->mol;
-    int *cls = malloc((size_t)p->natoms * sizeof(int));
-    if (!cls)
-        return as_error_set(err, AS_ERR_NOMEM, -1, -1, "out of memory");
-    as_canon_ranking_free(ad->ranking);
-    ad->ranking = NULL;
-    as_status st = as_canon_classes_keep(p, cls, &ad->ranking, err);
-    if (st != AS_OK) {
-        free(cls);
+    int *cls = NULL;
+    as_status st = take_classes(ad, &cls, err);
+    if (st != AS_OK)
         return st;
-    }
     for (int i = p->ntetra - 1; i >= 0; i--)
         if (p->atoms[p->tetra[i].center].elem == 6 && !is_centre(p, cls, p->tetra[i].center))
             p->tetra[i] = p->tetra[--p->ntetra];
