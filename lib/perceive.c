@@ -50,75 +50,86 @@ static int max_valence(int elem, int charge)
     }
 }
 
-/* ---------------------------------------------------------------- pass: hydrogens */
+/* ---------------------------------------------------------------- hydrogens, valence */
+
+/* Sum of the bond orders at a, aromatic bonds counted 1; *arom: how many are aromatic. */
+static int bond_sum(const as_mol *m, const as_atom *a, int *arom)
+{
+    int sum = 0, ar = 0;
+    for (int k = 0; k < a->degree; k++) {
+        int o = m->bonds[a->nbond[k]].order;
+        if (o == AS_BOND_AROMATIC) {
+            sum++;
+            ar++;
+        } else {
+            sum += o;
+        }
+    }
+    *arom = ar;
+    return sum;
+}
+
+/* total_h of a from its bracket count, else from the default valences given its bond sum. */
+static void set_hydrogens(as_atom *a, int sum, int arom_bonds)
+{
+    if (a->hcount >= 0) {
+        a->total_h = a->hcount;
+        return;
+    }
+    a->total_h = 0;
+    if (a->elem <= 0 || a->elem >= N_VALENCE_ROWS || !default_valences[a->elem][0])
+        return; /* '*' and elements outside the organic subset */
+    int v = as_default_valence(a->elem, sum);
+    if (v < 0)
+        return;
+    /* the aromatic pi contribution is subtracted only while the bonds are still written
+     * aromatic; a molecule perceived before holds Kekulé orders that already count it */
+    int h = v - sum - (a->aromatic && arom_bonds ? 1 : 0);
+    a->total_h = h > 0 ? h : 0;
+}
+
+static int neutral_heavy_halogen(const as_atom *a)
+{
+    return (a->elem == 17 || a->elem == 35 || a->elem == 53) && a->charge == 0 && !a->bracket;
+}
+
+/* 1 when a, with v bonds to it (H included), exceeds what its element and charge allow:
+ * neutral Cl, Br, I take 1, 3, 5 or 7 (perchlorate, periodinanes), the rest their maximum. */
+static int over_valent(const as_atom *a, int v)
+{
+    if (neutral_heavy_halogen(a))
+        return v > 7 || v % 2 == 0;
+    int maxv = max_valence(a->elem, a->charge);
+    return maxv >= 0 && v > maxv;
+}
 
 static as_status pass_hydrogens(as_mol *m, as_error *err)
 {
     (void)err;
     for (int i = 0; i < m->natoms; i++) {
-        as_atom *a = &m->atoms[i];
-        if (a->hcount >= 0) {
-            a->total_h = a->hcount;
-            continue;
-        }
-        a->total_h = 0;
-        if (a->elem <= 0 || a->elem >= N_VALENCE_ROWS || !default_valences[a->elem][0])
-            continue; /* '*' and elements outside the organic subset */
-        /* bond orders with aromatic bonds counted 1, and how many are aromatic */
-        int sum = 0, arom_bonds = 0;
-        for (int k = 0; k < a->degree; k++) {
-            int o = m->bonds[a->nbond[k]].order;
-            if (o == AS_BOND_AROMATIC) {
-                sum++;
-                arom_bonds++;
-            } else {
-                sum += o;
-            }
-        }
-        int v = as_default_valence(a->elem, sum);
-        if (v < 0)
-            continue;
-        /* the aromatic pi contribution is subtracted only while the bonds are still written
-         * aromatic; a molecule perceived before holds Kekulé orders that already count it */
-        int h = v - sum - (a->aromatic && arom_bonds ? 1 : 0);
-        a->total_h = h > 0 ? h : 0;
+        int arom;
+        int sum = bond_sum(m, &m->atoms[i], &arom);
+        set_hydrogens(&m->atoms[i], sum, arom);
     }
     return AS_OK;
 }
 
-/* ---------------------------------------------------------------- pass: valence */
-
 static as_status check_valence_atom(const as_mol *m, int i, as_error *err)
 {
     const as_atom *a = &m->atoms[i];
-    if ((a->elem == 17 || a->elem == 35 || a->elem == 53) && a->charge == 0 && !a->bracket) {
-        /* neutral Cl, Br, I: valence 1, 3, 5 or 7 (perchlorate, periodinanes) */
-        int v = a->total_h;
-        for (int k = 0; k < a->degree; k++)
-            v += m->bonds[a->nbond[k]].order == AS_BOND_AROMATIC ? 1 : m->bonds[a->nbond[k]].order;
-        if (v > 7 || v % 2 == 0)
-            return as_error_set(err, AS_ERR_VALENCE, a->src_offset, i,
-                                "atom %d (%s) has %d bonds to it; a neutral halogen takes 1, 3, 5 or 7",
-                                i + 1, as_element_symbol(a->elem), v);
+    int arom;
+    int v = bond_sum(m, a, &arom) + a->total_h;
+    if (!over_valent(a, v))
         return AS_OK;
-    }
-    int maxv = max_valence(a->elem, a->charge);
-    if (maxv < 0)
-        return AS_OK;
-    int v = 0;
-    for (int k = 0; k < a->degree; k++) {
-        int o = m->bonds[a->nbond[k]].order;
-        v += o == AS_BOND_AROMATIC ? 1 : o;
-    }
-    v += a->total_h;
-    if (v > maxv) {
-        const char *sym = as_element_symbol(a->elem);
+    if (neutral_heavy_halogen(a))
         return as_error_set(err, AS_ERR_VALENCE, a->src_offset, i,
-                            "atom %d (%s%s) has %d bonds to it, more than its valence of %d allows",
-                            i + 1, sym ? sym : "?", a->charge > 0 ? "+" : a->charge < 0 ? "-" : "",
-                            v, maxv);
-    }
-    return AS_OK;
+                            "atom %d (%s) has %d bonds to it; a neutral halogen takes 1, 3, 5 or 7",
+                            i + 1, as_element_symbol(a->elem), v);
+    const char *sym = as_element_symbol(a->elem);
+    return as_error_set(err, AS_ERR_VALENCE, a->src_offset, i,
+                        "atom %d (%s%s) has %d bonds to it, more than its valence of %d allows",
+                        i + 1, sym ? sym : "?", a->charge > 0 ? "+" : a->charge < 0 ? "-" : "",
+                        v, max_valence(a->elem, a->charge));
 }
 
 static as_status pass_valence(as_mol *m, as_error *err)
@@ -189,38 +200,12 @@ static as_status pass_hydrogens_valence(as_mol *m, as_error *err)
     int bad = -1;
     for (int i = 0; i < m->natoms; i++) {
         as_atom *a = &m->atoms[i];
-        int sum = 0, arom_bonds = 0;
-        for (int k = 0; k < a->degree; k++) {
-            int o = m->bonds[a->nbond[k]].order;
-            if (o == AS_BOND_AROMATIC) {
-                sum++;
-                arom_bonds++;
-            } else {
-                sum += o;
-            }
-        }
-        if (a->hcount >= 0) {
-            a->total_h = a->hcount;
-        } else {
-            a->total_h = 0;
-            if (a->elem > 0 && a->elem < N_VALENCE_ROWS && default_valences[a->elem][0]) {
-                int v = as_default_valence(a->elem, sum);
-                int h = v - sum - (a->aromatic && arom_bonds ? 1 : 0);
-                if (v >= 0 && h > 0)
-                    a->total_h = h;
-            }
-        }
-        if (bad >= 0 || a->aromatic)
-            continue; /* aromatic atoms are checked after kekulisation */
-        int v = sum + a->total_h;
-        if ((a->elem == 17 || a->elem == 35 || a->elem == 53) && a->charge == 0 && !a->bracket) {
-            if (v > 7 || v % 2 == 0)
-                bad = i;
-        } else {
-            int maxv = max_valence(a->elem, a->charge);
-            if (maxv >= 0 && v > maxv)
-                bad = i;
-        }
+        int arom;
+        int sum = bond_sum(m, a, &arom);
+        set_hydrogens(a, sum, arom);
+        /* aromatic atoms are checked after kekulisation */
+        if (bad < 0 && !a->aromatic && over_valent(a, sum + a->total_h))
+            bad = i;
     }
     return bad >= 0 ? check_valence_atom(m, bad, err) : AS_OK;
 }
