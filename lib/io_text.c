@@ -424,14 +424,7 @@ int as_fmt_ll(char *buf, long long v)
         *p++ = '-';
         u = 0 - u;
     }
-    char tmp[24];
-    int n = 0;
-    do {
-        tmp[n++] = (char)('0' + u % 10);
-        u /= 10;
-    } while (u);
-    while (n)
-        *p++ = tmp[--n];
+    p += put_digits(p, u, 0);
     *p = '\0';
     return (int)(p - buf);
 }
